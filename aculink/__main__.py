@@ -1,0 +1,3 @@
+from aculink.cli import main
+
+raise SystemExit(main())

@@ -1,0 +1,61 @@
+"""The one exception type a user can cause.
+
+Every mistake in a site file, a command-line option or an argument to the public API raises
+:class:`AculinkError` with a one-line message naming the field, the value and the allowed
+range. The command line prints that line to stderr and exits with code 2; nothing else is
+shown to the user.
+"""
+
+from __future__ import annotations
+
+import difflib
+import math
+from typing import Iterable
+
+
+class AculinkError(ValueError):
+    """A user-caused error; its message is one line naming the field, value and allowed range."""
+
+    def __init__(self, message: str):
+        super().__init__(" ".join(str(message).split()))
+
+
+def closest(name: str, choices: Iterable[str]) -> str:
+    """Return ``" (did you mean 'x'?)"`` for the closest valid name, or an empty string."""
+    match = difflib.get_close_matches(name, list(choices), n=1, cutoff=0.5)
+    return f" (did you mean '{match[0]}'?)" if match else ""
+
+
+def check_range(field: str, value, low=None, high=None, *, low_open=False, high_open=False,
+                unit: str = "") -> float:
+    """Validate that ``value`` is a finite number inside the given bounds and return it as float.
+
+    Raises
+    ------
+    AculinkError
+        Naming ``field``, the value and the allowed range.
+    """
+    def interval() -> str:
+        lo = "-inf" if low is None else f"{low:g}"
+        hi = "inf" if high is None else f"{high:g}"
+        return f"{'(' if low_open or low is None else '['}{lo}, {hi}{')' if high_open or high is None else ']'}"
+
+    suffix = f" {unit}" if unit else ""
+    if isinstance(value, bool) or not isinstance(value, (int, float)) and not _is_numpy_number(value):
+        raise AculinkError(f"{field} = {value!r}: expected a number in {interval()}{suffix}")
+    v = float(value)
+    if not math.isfinite(v):
+        raise AculinkError(f"{field} = {value!r}: expected a finite number in {interval()}{suffix}")
+    bad_low = low is not None and (v <= low if low_open else v < low)
+    bad_high = high is not None and (v >= high if high_open else v > high)
+    if bad_low or bad_high:
+        raise AculinkError(f"{field} = {v:g}{suffix}: allowed range is {interval()}{suffix}")
+    return v
+
+
+def _is_numpy_number(value) -> bool:
+    try:
+        import numpy as np
+    except ImportError:  # pragma: no cover
+        return False
+    return isinstance(value, (np.integer, np.floating))
