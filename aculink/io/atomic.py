@@ -1,0 +1,50 @@
+"""Atomic file writes: write to a temporary file beside the target, then rename.
+
+A reader never sees half a file, and an interrupted run never leaves a truncated result in
+place of an earlier good one.
+"""
+
+from __future__ import annotations
+
+import contextlib
+import os
+import tempfile
+from pathlib import Path
+
+from aculink.errors import AculinkError
+
+
+@contextlib.contextmanager
+def atomic_path(path, *, overwrite: bool = True):
+    """Yield a temporary path in the target's folder; rename it onto ``path`` on success.
+
+    Parameters
+    ----------
+    path : str or Path
+        The final file.
+    overwrite : bool
+        When False and ``path`` exists, raise :class:`AculinkError` before writing anything.
+    """
+    path = Path(path)
+    if not overwrite and path.exists():
+        raise AculinkError(f"{path} exists: pass --overwrite to replace it")
+    folder = path.parent if str(path.parent) else Path(".")
+    if not folder.is_dir():
+        raise AculinkError(f"output folder {folder} does not exist")
+    if not os.access(folder, os.W_OK):
+        raise AculinkError(f"output folder {folder} is not writable")
+    fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=folder)
+    os.close(fd)
+    try:
+        yield Path(tmp)
+        os.replace(tmp, path)
+    finally:
+        if os.path.exists(tmp):
+            os.unlink(tmp)
+
+
+def write_text_atomic(path, text: str, *, overwrite: bool = True) -> Path:
+    """Write ``text`` to ``path`` atomically and return the path."""
+    with atomic_path(path, overwrite=overwrite) as tmp:
+        Path(tmp).write_text(text, encoding="utf-8")
+    return Path(path)

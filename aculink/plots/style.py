@@ -1,0 +1,90 @@
+"""The one look every aculink picture shares.
+
+Muted grid, light axes, colour-blind-safe colours (the Okabe-Ito palette for lines; viridis
+and cividis for maps), units on every axis, and a title that says the site and the geometry.
+Figures are written atomically as PNG.
+"""
+
+from __future__ import annotations
+
+import matplotlib
+
+matplotlib.use("Agg")  # files only; no screen is assumed
+
+import matplotlib.pyplot as plt  # noqa: E402
+
+from aculink.io.atomic import atomic_path  # noqa: E402
+
+#: Okabe and Ito (2008), "Color Universal Design": distinguishable with every common colour-vision deficiency.
+PALETTE = ("#0072B2", "#D55E00", "#009E73", "#CC79A7", "#E69F00", "#56B4E9", "#F0E442", "#000000")
+#: Colour maps: sequential fields (TL, rates) and diverging-free magnitude maps.
+FIELD_CMAP = "cividis"
+RATE_CMAP = "viridis"
+WATER_COLOUR = "#DCEBF5"
+SEABED_COLOUR = "#B89B72"
+
+_RC = {
+    "figure.dpi": 110,
+    "savefig.dpi": 130,
+    "font.size": 9.5,
+    "axes.titlesize": 10.5,
+    "axes.titleweight": "bold",
+    "axes.labelsize": 9.5,
+    "axes.edgecolor": "#555555",
+    "axes.linewidth": 0.8,
+    "axes.grid": True,
+    "grid.color": "#D8D8D8",
+    "grid.linewidth": 0.6,
+    "grid.linestyle": "-",
+    "axes.spines.top": False,
+    "axes.spines.right": False,
+    "axes.prop_cycle": matplotlib.cycler(color=PALETTE),
+    "legend.frameon": False,
+    "legend.fontsize": 8.5,
+    "lines.linewidth": 1.4,
+}
+
+
+def figure(nrows=1, ncols=1, *, size=(8.0, 4.8), **kwargs):
+    """A new figure and axes in the aculink style."""
+    with plt.rc_context(_RC):
+        fig, axes = plt.subplots(nrows, ncols, figsize=size, constrained_layout=True, **kwargs)
+    return fig, axes
+
+
+def styled(func):
+    """Decorator: run a drawing function inside the aculink rc context."""
+
+    def wrapper(*args, **kwargs):
+        with plt.rc_context(_RC):
+            return func(*args, **kwargs)
+
+    wrapper.__name__ = func.__name__
+    wrapper.__doc__ = func.__doc__
+    return wrapper
+
+
+def site_title(site, detail: str = "") -> str:
+    """Title text: site name and, when given, the geometry (e.g. 'source 20 m, receiver 4 km / 30 m')."""
+    name = getattr(site, "name", None) or str(site)
+    return f"{name} - {detail}" if detail else name
+
+
+def geometry_text(source_depth_m=None, range_m=None, receiver_depth_m=None) -> str:
+    """A short geometry description for titles."""
+    parts = []
+    if source_depth_m is not None:
+        parts.append(f"source {source_depth_m:g} m deep")
+    if range_m is not None and receiver_depth_m is not None:
+        parts.append(f"receiver at {range_m / 1000:g} km, {receiver_depth_m:g} m deep")
+    elif range_m is not None:
+        parts.append(f"range {range_m / 1000:g} km")
+    return ", ".join(parts)
+
+
+def save(fig, path) -> str:
+    """Write ``fig`` to ``path`` (PNG) atomically, close it and return the path."""
+    with atomic_path(path) as tmp:
+        fig.savefig(tmp, format="png")
+    plt.close(fig)
+    return str(path)
