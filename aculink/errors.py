@@ -59,3 +59,49 @@ def _is_numpy_number(value) -> bool:
     except ImportError:  # pragma: no cover
         return False
     return isinstance(value, (np.integer, np.floating))
+
+
+def check_array(field: str, values, low=None, high=None, *, low_open=False, high_open=False,
+                unit: str = ""):
+    """Array twin of :func:`check_range`: return ``values`` as a float ndarray, or raise.
+
+    NaN entries pass through untouched (they mark padding or missing data and give NaN
+    results); infinities and values outside the bounds raise :class:`AculinkError` naming
+    ``field``, the first offending value and the allowed range.
+    """
+    import numpy as np
+
+    try:
+        arr = np.asarray(values, dtype=float)
+    except (TypeError, ValueError):
+        raise AculinkError(f"{field} = {values!r}: expected numbers") from None
+    bad = np.isinf(arr)
+    with np.errstate(invalid="ignore"):
+        if low is not None:
+            bad |= (arr <= low) if low_open else (arr < low)
+        if high is not None:
+            bad |= (arr >= high) if high_open else (arr > high)
+    if bad.any():
+        check_range(field, arr[bad].flat[0], low, high, low_open=low_open, high_open=high_open,
+                    unit=unit)
+    return arr
+
+
+def validity_note(formula: str, field: str, values, low, high, unit: str = "") -> str | None:
+    """One human-readable line when some finite ``values`` lie outside ``[low, high]``.
+
+    For formulas that still compute outside their fitted domain but should not be trusted
+    there; returns ``None`` when every value is inside (NaN ignored).
+    """
+    import numpy as np
+
+    arr = np.asarray(values, dtype=float).ravel()
+    arr = arr[np.isfinite(arr)]
+    out = arr[(arr < low) | (arr > high)]
+    if out.size == 0:
+        return None
+    suffix = f" {unit}" if unit else ""
+    span = f"{out.min():g}" if out.min() == out.max() else f"{out.min():g} to {out.max():g}"
+    count = "" if arr.size == 1 else f" ({out.size} of {arr.size} values)"
+    return (f"{formula}: {field} {span}{suffix}{count} is outside its stated validity "
+            f"{low:g} to {high:g}{suffix}")
