@@ -13,8 +13,71 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from aculink.errors import AculinkError
+from aculink.errors import AculinkError, check_range
 from aculink.site.profile import SoundSpeedProfile
+
+#: Allowed ranges of every scalar field, as ``(low, high, low_open, high_open, unit)``. The
+#: loader and ``__post_init__`` both check against this table, so each range lives in one
+#: place; the README's site-file reference states the same numbers.
+LIMITS = {
+    "water": {
+        "ph": (6.5, 9.0, False, False, ""),
+        "latitude_deg": (-90.0, 90.0, False, False, "deg"),
+        "density_kgm3": (990.0, 1100.0, False, False, "kg/m^3"),
+    },
+    "seabed": {
+        "sound_speed_mps": (1000.0, 8000.0, False, False, "m/s"),
+        "density_kgm3": (1000.0, 5000.0, False, False, "kg/m^3"),
+        "attenuation_db_per_wavelength": (0.0, 10.0, False, False, "dB/wavelength"),
+    },
+    "surface": {
+        "wind_speed_mps": (0.0, 50.0, False, False, "m/s"),
+        "rms_height_m": (0.0, 20.0, False, False, "m"),
+    },
+    "noise": {
+        "shipping": (0.0, 1.0, False, False, ""),
+        "wind_speed_mps": (0.0, 50.0, False, False, "m/s"),
+        "extra_db": (-40.0, 60.0, False, False, "dB"),
+    },
+    "source": {
+        "depth_m": (0.0, 11000.0, True, False, "m"),
+        "level_db": (100.0, 240.0, False, False, "dB re 1 uPa at 1 m"),
+        "speed_mps": (-50.0, 50.0, False, False, "m/s"),
+        "directivity_index_db": (0.0, 40.0, False, False, "dB"),
+    },
+    "receiver": {
+        "depth_m": (0.0, 11000.0, True, False, "m"),
+        "range_m": (0.0, 1.0e7, True, False, "m"),
+        "speed_mps": (-50.0, 50.0, False, False, "m/s"),
+        "directivity_index_db": (0.0, 40.0, False, False, "dB"),
+    },
+    "modem": {
+        "carrier_hz": (0.0, 1.0e6, True, False, "Hz"),
+        "bandwidth_hz": (0.0, 2.0e6, True, False, "Hz"),
+        "rolloff": (0.0, 1.0, False, False, ""),
+        "target_ber": (0.0, 0.5, True, True, ""),
+        "margin_db": (0.0, 40.0, False, False, "dB"),
+    },
+}
+
+#: Deepest water any site may have, m (the deepest ocean trench is about 11 km).
+MAX_DEPTH_M = 11000.0
+#: Longest track a seabed description may cover, m.
+MAX_RANGE_M = 1.0e7
+
+
+def check_field(section: str, name: str, value) -> float:
+    """Check one scalar against :data:`LIMITS` and return it as float (AculinkError if out of range)."""
+    low, high, low_open, high_open, unit = LIMITS[section][name]
+    return check_range(f"[{section}] {name}", value, low, high, low_open=low_open,
+                       high_open=high_open, unit=unit)
+
+
+def _check_fields(obj, section: str) -> None:
+    """Validate every limited field of a frozen dataclass in place (values become floats)."""
+    for name in LIMITS[section]:
+        if hasattr(obj, name):
+            object.__setattr__(obj, name, check_field(section, name, getattr(obj, name)))
 
 
 @dataclass(frozen=True, eq=False)
@@ -25,6 +88,11 @@ class Water:
     ph: float = 8.0
     latitude_deg: float = 45.0
     density_kgm3: float = 1025.0
+
+    def __post_init__(self):
+        if not isinstance(self.profile, SoundSpeedProfile):
+            raise AculinkError(f"[water] profile = {type(self.profile).__name__}: expected a SoundSpeedProfile")
+        _check_fields(self, "water")
 
 
 @dataclass(frozen=True, eq=False)
@@ -47,8 +115,24 @@ class Seabed:
         d = np.atleast_1d(np.asarray(self.depth_m, dtype=float))
         if r.shape != d.shape:
             raise AculinkError(f"seabed range_m has {r.size} values but depth_m has {d.size}: they must match")
+        if r.size == 0:
+            raise AculinkError("[seabed] depth_m is empty: give at least one depth")
+        for i, (ri, di) in enumerate(zip(r, d)):
+            check_range(f"[seabed] depth_m[{i}]", di, 0.0, MAX_DEPTH_M, low_open=True, unit="m")
+            check_range(f"[seabed] range_m[{i}]", ri, 0.0, MAX_RANGE_M, unit="m")
+        if r.size > 1:
+            if r[0] != 0.0:
+                raise AculinkError(f"[seabed] range_m[0] = {r[0]:g} m: the track must start at range 0 m")
+            steps = np.diff(r)
+            if np.any(steps <= 0):
+                i = int(np.argmax(steps <= 0)) + 1
+                raise AculinkError(f"[seabed] range_m[{i}] = {r[i]:g} m: ranges must be strictly increasing "
+                                   f"(previous value {r[i - 1]:g} m)")
         object.__setattr__(self, "range_m", r)
         object.__setattr__(self, "depth_m", d)
+        _check_fields(self, "seabed")
+        if self.sediment is not None and not isinstance(self.sediment, str):
+            raise AculinkError(f"[seabed] sediment = {self.sediment!r}: expected a sediment name (text)")
 
     @property
     def is_flat(self) -> bool:
@@ -77,6 +161,9 @@ class Surface:
     wind_speed_mps: float = 0.0
     rms_height_m: float = 0.0
 
+    def __post_init__(self):
+        _check_fields(self, "surface")
+
 
 @dataclass(frozen=True)
 class Noise:
@@ -85,6 +172,9 @@ class Noise:
     shipping: float = 0.5
     wind_speed_mps: float = 0.0
     extra_db: float = 0.0
+
+    def __post_init__(self):
+        _check_fields(self, "noise")
 
 
 @dataclass(frozen=True)
@@ -96,6 +186,9 @@ class Source:
     speed_mps: float = 0.0
     directivity_index_db: float = 0.0
 
+    def __post_init__(self):
+        _check_fields(self, "source")
+
 
 @dataclass(frozen=True)
 class Receiver:
@@ -105,6 +198,9 @@ class Receiver:
     range_m: float
     speed_mps: float = 0.0
     directivity_index_db: float = 0.0
+
+    def __post_init__(self):
+        _check_fields(self, "receiver")
 
 
 @dataclass(frozen=True)
@@ -116,6 +212,23 @@ class Modem:
     rolloff: float = 0.25
     target_ber: float = 1e-4
     margin_db: float = 3.0
+
+    def __post_init__(self):
+        _check_fields(self, "modem")
+        if self.bandwidth_hz > 2.0 * self.carrier_hz:
+            raise AculinkError(
+                f"[modem] bandwidth_hz = {self.bandwidth_hz:g} Hz: allowed range is (0, {2.0 * self.carrier_hz:g}] Hz "
+                f"(the carrier, carrier_hz = {self.carrier_hz:g} Hz, must be at least half the bandwidth)")
+
+    @property
+    def band_hz(self) -> tuple[float, float]:
+        """Lower and upper band edges, Hz."""
+        return self.carrier_hz - 0.5 * self.bandwidth_hz, self.carrier_hz + 0.5 * self.bandwidth_hz
+
+    @property
+    def max_symbol_rate_baud(self) -> float:
+        """Highest symbol rate whose root-raised-cosine spectrum fits the band, B / (1 + rolloff)."""
+        return self.bandwidth_hz / (1.0 + self.rolloff)
 
 
 @dataclass(frozen=True, eq=False)
@@ -133,6 +246,18 @@ class Site:
     description: str = ""
     path: str | None = None
     text: str = ""
+
+    def __post_init__(self):
+        for section, kind in (("water", Water), ("seabed", Seabed), ("surface", Surface), ("noise", Noise),
+                              ("source", Source), ("receiver", Receiver), ("modem", Modem)):
+            if not isinstance(getattr(self, section), kind):
+                raise AculinkError(f"[{section}] = {type(getattr(self, section)).__name__}: expected a {kind.__name__}")
+        if not isinstance(self.name, str) or not isinstance(self.description, str):
+            raise AculinkError("name and description must be text")
+        if self.water.profile.max_depth_m < self.seabed.max_depth_m:
+            raise AculinkError(
+                f"[water] profile ends at {self.water.profile.max_depth_m:g} m but [seabed] depth_m reaches "
+                f"{self.seabed.max_depth_m:g} m: the profile must reach the deepest seabed point")
 
     def with_geometry(self, *, range_m=None, depth_m=None, source_depth_m=None) -> "Site":
         """A copy with the receiver moved and/or the source depth changed."""
