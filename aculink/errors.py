@@ -43,7 +43,10 @@ def check_range(field: str, value, low=None, high=None, *, low_open=False, high_
     suffix = f" {unit}" if unit else ""
     if isinstance(value, bool) or not isinstance(value, (int, float)) and not _is_numpy_number(value):
         raise AculinkError(f"{field} = {value!r}: expected a number in {interval()}{suffix}")
-    v = float(value)
+    try:
+        v = float(value)
+    except OverflowError:  # an integer too large for a float
+        raise AculinkError(f"{field} = {'-' if value < 0 else ''}1e{len(str(abs(value))) - 1}: allowed range is {interval()}{suffix}") from None
     if not math.isfinite(v):
         raise AculinkError(f"{field} = {value!r}: expected a finite number in {interval()}{suffix}")
     bad_low = low is not None and (v <= low if low_open else v < low)
@@ -103,5 +106,10 @@ def validity_note(formula: str, field: str, values, low, high, unit: str = "") -
     suffix = f" {unit}" if unit else ""
     span = f"{out.min():g}" if out.min() == out.max() else f"{out.min():g} to {out.max():g}"
     count = "" if arr.size == 1 else f" ({out.size} of {arr.size} values)"
-    return (f"{formula}: {field} {span}{suffix}{count} is outside its stated validity "
-            f"{low:g} to {high:g}{suffix}")
+    if low == -math.inf:
+        valid = f"up to {high:g}{suffix}"
+    elif high == math.inf:
+        valid = f"from {low:g}{suffix}"
+    else:
+        valid = f"{low:g} to {high:g}{suffix}"
+    return f"{formula}: {field} {span}{suffix}{count} is outside its stated validity {valid}"

@@ -23,6 +23,7 @@ LIMITS = {
     "water": {
         "ph": (6.5, 9.0, False, False, ""),
         "latitude_deg": (-90.0, 90.0, False, False, "deg"),
+        "longitude_deg": (-360.0, 360.0, False, False, "deg"),
         "density_kgm3": (990.0, 1100.0, False, False, "kg/m^3"),
     },
     "seabed": {
@@ -82,12 +83,17 @@ def _check_fields(obj, section: str) -> None:
 
 @dataclass(frozen=True, eq=False)
 class Water:
-    """The water column: sound-speed profile and chemistry used by absorption."""
+    """The water column: sound-speed profile and chemistry used by absorption.
+
+    ``latitude_deg`` and ``longitude_deg`` are the site's position, used where pressure and
+    TEOS-10 salinity need them.
+    """
 
     profile: SoundSpeedProfile
     ph: float = 8.0
     latitude_deg: float = 45.0
     density_kgm3: float = 1025.0
+    longitude_deg: float = 0.0
 
     def __post_init__(self):
         if not isinstance(self.profile, SoundSpeedProfile):

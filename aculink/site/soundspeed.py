@@ -348,7 +348,9 @@ def teos10_validity_warnings(temperature_c, salinity_psu, *, depth_m=None, press
     """Lines describing points outside the TEOS-10 75-term fit's oceanographic funnel.
 
     Uses ``gsw.infunnel(SA, CT, p)`` (McDougall and Barker 2011; Roquet et al. 2015, Ocean
-    Modelling 90, 29-43), after the same conversions as :func:`sound_speed_teos10`.
+    Modelling 90, 29-43), after the same conversions as :func:`sound_speed_teos10`, plus the
+    funnel's upper Conservative Temperature bound of 40 deg C (McDougall et al. 2003, J. Atmos.
+    Oceanic Technol. 20, 730-741; from memory), which ``gsw.infunnel`` does not test.
     """
     sa, ct, p = _teos10_state(temperature_c, salinity_psu, depth_m, pressure_dbar,
                               latitude_deg, longitude_deg)
@@ -356,10 +358,15 @@ def teos10_validity_warnings(temperature_c, salinity_psu, *, depth_m=None, press
     ok = np.isnan(sa) | np.isnan(ct) | np.isnan(p)
     with np.errstate(invalid="ignore"):
         ok |= np.asarray(gsw.infunnel(sa, ct, p), dtype=bool)
+    notes = []
     n_out = int((~ok).sum())
-    if n_out == 0:
-        return []
-    count = "" if ok.size == 1 else f" ({n_out} of {ok.size} points)"
-    return [f"TEOS-10 (75-term) sound speed: temperature, salinity or pressure{count} outside "
-            f"the fit's oceanographic funnel (pressure up to {p[~ok].max():g} dbar)"]
+    if n_out:
+        count = "" if ok.size == 1 else f" ({n_out} of {ok.size} points)"
+        notes.append(f"TEOS-10 (75-term) sound speed: temperature, salinity or pressure{count} "
+                     f"outside the fit's oceanographic funnel (pressure up to "
+                     f"{p[~ok].max():g} dbar)")
+    # gsw.infunnel (3.6) does not test the funnel's upper temperature bound of 40 degC
+    hot = validity_note("TEOS-10 (75-term) sound speed", "conservative temperature", ct,
+                        -np.inf, 40.0, "degC")
+    return notes + ([hot] if hot else [])
 

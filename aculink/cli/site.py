@@ -1,0 +1,50 @@
+"""``aculink site FILE``: check a site file and print what a practitioner looks at first."""
+
+from __future__ import annotations
+
+from aculink.cli._common import add_site_argument, load_site_arg, print_json
+
+
+def register(subparsers) -> None:
+    parser = subparsers.add_parser(
+        "site",
+        help="validate a site file and summarise its water, seabed, surface, noise and equipment",
+        description="Load and validate a site file, then print the facts to check before trusting "
+        "any prediction: sound-speed range, surface duct, sound-channel axis and critical depth, "
+        "seabed critical angle and bottom loss, absorption and noise in the modem band, geometry, "
+        "and warnings for inputs outside a formula's validity.",
+    )
+    add_site_argument(parser)
+    parser.add_argument("--json", action="store_true", help="print the summary as one JSON object")
+    parser.add_argument("--plot", metavar="FILE.png",
+                        help="also draw the sound-speed profile beside the seabed along the track")
+    parser.add_argument("--overwrite", action="store_true", help="replace an existing --plot file")
+    parser.set_defaults(func=run)
+
+
+def run(args) -> int:
+    from pathlib import Path
+
+    from aculink.errors import AculinkError
+    from aculink.site.summary import format_summary, summarize_site
+
+    if args.plot is not None:
+        plot = Path(args.plot)
+        if plot.suffix.lower() != ".png":
+            raise AculinkError(f"--plot = '{args.plot}': expected a file name ending in .png")
+        if plot.exists() and not args.overwrite:
+            raise AculinkError(f"--plot = '{args.plot}': the file exists; pass --overwrite to replace it")
+    site = load_site_arg(args.site)
+    summary = summarize_site(site)
+    if args.plot is not None:
+        from aculink.plots.site import plot_site
+
+        plot_site(site, args.plot, overwrite=args.overwrite)
+        summary["plot"] = str(args.plot)
+    if args.json:
+        print_json(summary)
+    else:
+        print(format_summary(summary))
+        if args.plot is not None:
+            print(f"\nPlot written to {args.plot}")
+    return 0

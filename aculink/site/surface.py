@@ -1,0 +1,228 @@
+"""The sea surface: coherent reflection from a rough surface and a wind-driven wave spectrum.
+
+The surface is pressure-release (R0 = -1) roughened by waves with Gaussian elevations of rms
+height sigma. The waves come from the Pierson-Moskowitz spectrum of a fully developed sea, which
+is parameterised by the wind speed at 19.5 m above the sea. Site files give the wind at the
+usual 10 m anemometer height; this module converts it with
+:data:`aculink.constants.WIND_19P5_OVER_10` (a neutral logarithmic wind profile) unless the
+caller says the wind is already at 19.5 m.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from aculink.constants import (
+    GRAVITY_MPS2,
+    PIERSON_MOSKOWITZ_ALPHA,
+    PIERSON_MOSKOWITZ_BETA,
+    WIND_19P5_OVER_10,
+)
+from aculink.errors import AculinkError, check_array
+
+__all__ = [
+    "surface_coherent_reflection",
+    "pierson_moskowitz_spectrum",
+    "rms_wave_height_pierson_moskowitz",
+    "significant_wave_height_pierson_moskowitz",
+    "surface_vertical_velocity_rms",
+]
+
+#: Wind heights (m) whose conversion to 19.5 m is known here.
+_WIND_FACTORS = {10.0: WIND_19P5_OVER_10, 19.5: 1.0}
+
+
+def _wind_19p5(wind_speed_mps, height_m):
+    u = check_array("wind_speed_mps", wind_speed_mps, 0.0, unit="m/s")
+    try:
+        return u * _WIND_FACTORS[float(height_m)]
+    except (KeyError, TypeError, ValueError):
+        raise AculinkError(f"height_m = {height_m!r}: wind height must be 10 or 19.5 m") from None
+
+
+def surface_coherent_reflection(grazing_rad, freq_hz, rms_height_m, sound_speed_mps):
+    """Coherent (specular) reflection coefficient of a rough pressure-release sea surface.
+
+    .. math::
+
+        R_{coh} = -\\exp(-2 k^2 \\sigma^2 \\sin^2\\theta) = -\\exp(-\\Gamma^2 / 2),
+        \\quad k = 2\\pi f / c, \\quad \\Gamma = 2 k \\sigma \\sin\\theta
+
+    where Gamma is the Rayleigh roughness parameter; the loss is 20 log10 e * Gamma^2 / 2
+    = 4.343 Gamma^2 dB per bounce. The coefficient is real, so it is the same in either
+    time convention.
+
+    Parameters
+    ----------
+    grazing_rad : array_like
+        Grazing angle at the surface, rad, 0 to pi/2.
+    freq_hz : array_like
+        Frequency, Hz, >= 0.
+    rms_height_m : array_like
+        Rms surface elevation sigma, m, >= 0.
+    sound_speed_mps : array_like
+        Sound speed at the surface, m/s, > 0.
+
+    Returns
+    -------
+    numpy.ndarray
+        Real reflection coefficient in [-1, 0).
+
+    Notes
+    -----
+    Kirchhoff (tangent-plane) approximation for Gaussian surface heights; it neglects
+    shadowing, so it overestimates the loss at very low grazing angles when Gamma is large.
+
+    References
+    ----------
+    C. Eckart, "The scattering of sound from the sea surface", J. Acoust. Soc. Am. 25(3),
+    566-570 (1953).
+    """
+    theta = check_array("grazing_rad", grazing_rad, 0.0, np.pi / 2, unit="rad")
+    f = check_array("freq_hz", freq_hz, 0.0, unit="Hz")
+    sigma = check_array("rms_height_m", rms_height_m, 0.0, unit="m")
+    c = check_array("sound_speed_mps", sound_speed_mps, 0.0, low_open=True, unit="m/s")
+    k = 2.0 * np.pi * f / c
+    return -np.exp(-2.0 * (k * sigma * np.sin(theta)) ** 2)
+
+
+def pierson_moskowitz_spectrum(omega, wind_speed_mps, *, height_m=10.0):
+    """Pierson-Moskowitz elevation spectrum of a fully developed sea, m^2 s/rad.
+
+    .. math::
+
+        S(\\omega) = \\frac{\\alpha g^2}{\\omega^5}
+                     \\exp\\left[-\\beta \\left(\\frac{\\omega_0}{\\omega}\\right)^4\\right],
+        \\quad \\omega_0 = g / U_{19.5}, \\quad \\alpha = 8.1\\times10^{-3}, \\ \\beta = 0.74
+
+    one-sided in angular frequency, so that the elevation variance is the integral of S over
+    omega from 0 to infinity.
+
+    Parameters
+    ----------
+    omega : array_like
+        Angular frequency, rad/s, >= 0 (S = 0 at omega = 0).
+    wind_speed_mps : array_like
+        Wind speed, m/s, >= 0, at ``height_m``.
+    height_m : float, optional
+        Height of the wind speed: 10 (default; converted to 19.5 m with
+        ``WIND_19P5_OVER_10``) or 19.5.
+
+    Returns
+    -------
+    numpy.ndarray
+        Spectral density, m^2 s/rad.
+
+    References
+    ----------
+    W. J. Pierson and L. Moskowitz, "A proposed spectral form for fully developed wind seas
+    based on the similarity theory of S. A. Kitaigorodskii", J. Geophys. Res. 69(24),
+    5181-5190 (1964).
+    """
+    w = check_array("omega", omega, 0.0, unit="rad/s")
+    u = _wind_19p5(wind_speed_mps, height_m)
+    w, u = np.broadcast_arrays(w, u)
+    out = np.zeros(w.shape)
+    live = (w > 0.0) & (u > 0.0)
+    wl, w0 = w[live], GRAVITY_MPS2 / u[live]
+    out[live] = (PIERSON_MOSKOWITZ_ALPHA * GRAVITY_MPS2 ** 2 / wl ** 5
+                 * np.exp(-PIERSON_MOSKOWITZ_BETA * (w0 / wl) ** 4))
+    out[np.isnan(w) | np.isnan(u)] = np.nan
+    return out
+
+
+def rms_wave_height_pierson_moskowitz(wind_speed_mps, *, height_m=10.0):
+    """Rms surface elevation sigma_eta of a fully developed Pierson-Moskowitz sea, m.
+
+    The variance is the zeroth spectral moment, obtained in closed form with the substitution
+    x = beta (omega0/omega)^4:
+
+    .. math::
+
+        \\sigma_\\eta^2 = \\int_0^\\infty S(\\omega)\\,d\\omega
+                        = \\frac{\\alpha g^2}{4 \\beta \\omega_0^4}
+                        = \\frac{\\alpha U_{19.5}^4}{4 \\beta g^2},
+        \\qquad \\sigma_\\eta = 0.05231\\,U_{19.5}^2 / g
+
+    Parameters
+    ----------
+    wind_speed_mps : array_like
+        Wind speed, m/s, >= 0, at ``height_m`` (default 10 m, the site-file convention;
+        converted to 19.5 m with ``aculink.constants.WIND_19P5_OVER_10`` = 1.06).
+    height_m : float, optional
+        10 or 19.5.
+
+    Returns
+    -------
+    numpy.ndarray
+        Rms elevation, m (the significant wave height is four times this).
+
+    References
+    ----------
+    W. J. Pierson and L. Moskowitz, J. Geophys. Res. 69(24), 5181-5190 (1964).
+    """
+    u = _wind_19p5(wind_speed_mps, height_m)
+    return np.sqrt(PIERSON_MOSKOWITZ_ALPHA / (4.0 * PIERSON_MOSKOWITZ_BETA)) * u * u / GRAVITY_MPS2
+
+
+def significant_wave_height_pierson_moskowitz(wind_speed_mps, *, height_m=10.0):
+    """Significant wave height Hs = 4 sigma_eta = 0.2092 U_19.5^2 / g of a fully developed
+    Pierson-Moskowitz sea, m.
+
+    Parameters
+    ----------
+    wind_speed_mps : array_like
+        Wind speed, m/s, >= 0, at ``height_m`` (10 m by default, converted to 19.5 m).
+    height_m : float, optional
+        10 or 19.5.
+
+    Returns
+    -------
+    numpy.ndarray
+        Significant wave height (spectral, 4 sqrt(m0)), m.
+
+    References
+    ----------
+    W. J. Pierson and L. Moskowitz, J. Geophys. Res. 69(24), 5181-5190 (1964); Hs = 4 sqrt(m0)
+    is the usual spectral definition of significant wave height.
+    """
+    return 4.0 * rms_wave_height_pierson_moskowitz(wind_speed_mps, height_m=height_m)
+
+
+def surface_vertical_velocity_rms(wind_speed_mps, *, height_m=10.0):
+    """Rms vertical velocity of the sea surface in a fully developed Pierson-Moskowitz sea, m/s.
+
+    The vertical velocity spectrum is omega^2 S(omega), so with x = beta (omega0/omega)^4,
+    omega^-3 d omega = -omega^2 dx / (4 beta omega0^4) and omega^2 = (beta omega0^4 / x)^(1/2):
+
+    .. math::
+
+        \\sigma_v^2 = \\int_0^\\infty \\omega^2 S(\\omega)\\,d\\omega
+                    = \\alpha g^2 \\int_0^\\infty \\omega^{-3}
+                      e^{-\\beta \\omega_0^4 / \\omega^4}\\,d\\omega
+                    = \\frac{\\alpha g^2}{4 \\sqrt{\\beta}\\,\\omega_0^2}
+                      \\int_0^\\infty x^{-1/2} e^{-x}\\,dx
+                    = \\frac{\\alpha g^2 \\Gamma(1/2)}{4 \\sqrt{\\beta}\\,\\omega_0^2}
+                    = \\frac{\\alpha U_{19.5}^2}{4} \\sqrt{\\frac{\\pi}{\\beta}}
+
+    using omega0 = g/U_19.5. It sets the Doppler spread of surface-reflected paths.
+
+    Parameters
+    ----------
+    wind_speed_mps : array_like
+        Wind speed, m/s, >= 0, at ``height_m`` (10 m by default, converted to 19.5 m).
+    height_m : float, optional
+        10 or 19.5.
+
+    Returns
+    -------
+    numpy.ndarray
+        Rms vertical surface velocity, m/s (about 0.065 U_19.5).
+
+    References
+    ----------
+    W. J. Pierson and L. Moskowitz, J. Geophys. Res. 69(24), 5181-5190 (1964), the spectrum;
+    the second moment is derived above.
+    """
+    u = _wind_19p5(wind_speed_mps, height_m)
+    return np.sqrt(PIERSON_MOSKOWITZ_ALPHA * np.sqrt(np.pi / PIERSON_MOSKOWITZ_BETA) / 4.0) * u
