@@ -82,35 +82,50 @@ def test_several_mutations_load_or_raise(changes):
     _check(data)
 
 
-water_forms = st.one_of(
-    st.fixed_dictionaries({"profile": st.sampled_from(["munk", "linear", "isovelocity"])},
-                          optional={"gradient_per_s": st.floats(-1.0, 1.0), "axis_depth_m": st.floats(-100, 12000),
-                                    "scale_depth_m": st.floats(-10, 2e4), "epsilon": st.floats(-0.1, 0.1),
-                                    "axis_speed_mps": st.floats(1000, 2000), "sound_speed_mps": st.floats(1000, 2000),
-                                    "surface_speed_mps": st.floats(1000, 2000)}),
-    st.integers(1, 6).flatmap(lambda n: st.fixed_dictionaries({
-        "depth_m": st.lists(st.floats(-10.0, 12000.0), min_size=n, max_size=n).map(sorted),
-        "temperature_c": st.one_of(st.floats(-5.0, 45.0), st.lists(st.floats(-5.0, 45.0), min_size=n, max_size=n)),
-        "salinity_psu": st.one_of(st.floats(-1.0, 50.0), st.lists(st.floats(-1.0, 50.0), min_size=n, max_size=n)),
-        "equation": st.sampled_from(["mackenzie", "unesco", "teos10"]),
-        "latitude_deg": st.floats(-100.0, 100.0),
-    })),
-)
+@st.composite
+def physical_sites(draw):
+    """Well-typed sites whose numbers straddle the allowed ranges (so both outcomes occur)."""
+    flat = draw(st.booleans())
+    beds = [draw(st.floats(-5.0, 6000.0))] if flat else draw(st.lists(st.floats(1.0, 6000.0), min_size=2, max_size=4))
+    deepest = max(max(beds), 1.0)
+    if draw(st.booleans()):
+        water = {"profile": draw(st.sampled_from(["munk", "linear", "isovelocity"]))}
+        for key, strat in (("gradient_per_s", st.floats(-0.6, 0.6)), ("axis_depth_m", st.floats(-100, 12000)),
+                           ("scale_depth_m", st.floats(-10, 2e4)), ("epsilon", st.floats(-0.01, 0.06))):
+            if water["profile"] == {"gradient_per_s": "linear"}.get(key, "munk") and draw(st.booleans()):
+                water[key] = draw(strat)
+        if water["profile"] == "linear":
+            water.setdefault("gradient_per_s", draw(st.floats(-0.6, 0.6)))
+    else:
+        n = draw(st.integers(1, 6))
+        tail = deepest * draw(st.floats(0.9, 1.2))
+        depth = sorted([0.0, tail] + draw(st.lists(st.floats(0.0, tail), min_size=max(n - 2, 0), max_size=max(n - 2, 0))))
+        temps = st.floats(-5.0, 42.0)
+        sal = st.floats(-1.0, 46.0)
+        water = {"depth_m": depth,
+                 "temperature_c": draw(st.one_of(temps, st.lists(temps, min_size=len(depth), max_size=len(depth)))),
+                 "salinity_psu": draw(st.one_of(sal, st.lists(sal, min_size=len(depth), max_size=len(depth)))),
+                 "equation": draw(st.sampled_from(["mackenzie", "unesco", "teos10"])),
+                 "latitude_deg": draw(st.floats(-95.0, 95.0))}
+    seabed = {"depth_m": beds[0] if flat else beds, "sediment": draw(st.sampled_from(["sand", "clay", "rock"]))}
+    end = 1e9
+    if not flat:
+        end = draw(st.floats(100.0, 2e4))
+        seabed["range_m"] = list(np.linspace(0.0, end, len(beds)))
+    shallowest = min(beds)
+    carrier = draw(st.floats(100.0, 1e5))
+    return {"water": water, "seabed": seabed,
+            "source": {"depth_m": shallowest * draw(st.floats(-0.05, 1.05))},
+            "receiver": {"depth_m": shallowest * draw(st.floats(-0.05, 1.05)),
+                         "range_m": min(end, 2e4) * draw(st.floats(-0.05, 1.05))},
+            "modem": {"carrier_hz": carrier, "bandwidth_hz": carrier * draw(st.floats(0.05, 2.2)),
+                      "rolloff": draw(st.floats(-0.1, 1.1))}}
 
 
 @settings(max_examples=120, deadline=None, suppress_health_check=[HealthCheck.too_slow])
-@given(water=water_forms, bed=st.one_of(st.floats(-5.0, 12000.0),
-                                       st.lists(st.floats(1.0, 6000.0), min_size=2, max_size=4)),
-       src=st.floats(-5.0, 6000.0), rx=st.floats(-5.0, 6000.0), rng=st.floats(-10.0, 2e4),
-       carrier=st.floats(1.0, 1e5), bandwidth=st.floats(1.0, 1e5), rolloff=st.floats(-0.5, 1.5))
-def test_random_physical_sites_load_or_raise(water, bed, src, rx, rng, carrier, bandwidth, rolloff):
+@given(data=physical_sites())
+def test_random_physical_sites_load_or_raise(data):
     """Random but well-typed sites: the checks on values and on geometry hold."""
-    seabed = {"depth_m": bed, "sediment": "sand"}
-    if isinstance(bed, list):
-        seabed["range_m"] = [i * 5000.0 for i in range(len(bed))]
-    data = {"water": water, "seabed": seabed, "source": {"depth_m": src},
-            "receiver": {"depth_m": rx, "range_m": rng},
-            "modem": {"carrier_hz": carrier, "bandwidth_hz": bandwidth, "rolloff": rolloff}}
     _check(data)
 
 

@@ -1,0 +1,142 @@
+"""``aculink plan``: the range-versus-rate table for one site and receiver depth."""
+
+from __future__ import annotations
+
+import math
+import sys
+from pathlib import Path
+
+from aculink.cli._common import add_site_argument, load_site_arg, parse_span, print_json
+
+DEFAULT_RANGES = "500:20000:500"
+
+
+def register(subparsers) -> None:
+    p = subparsers.add_parser(
+        "plan", help="highest workable data rate at each range (table, CSV, JSON, plot)",
+        description="At each range, the highest net bit rate whose predicted BER meets the target "
+        "with the SNR margin to spare, with the modulation, symbol rate and receiver that reach "
+        "it. One ray fan serves all ranges. Planning estimates only.")
+    add_site_argument(p)
+    p.add_argument("--ranges-m", default=None, metavar="SPAN",
+                   help=f"receiver ranges, m: start:stop:step or a,b,c (default {DEFAULT_RANGES}, "
+                   "cut at the end of the site's seabed description)")
+    p.add_argument("--depth-m", type=float, default=None, metavar="Z",
+                   help="receiver depth, m (default: the site's receiver depth)")
+    p.add_argument("--receiver", default="all", metavar="NAME",
+                   help="receiver to plan for: none, linear, dfe, mmse-dfe or all (default all)")
+    p.add_argument("--target-ber", type=float, default=None, help="target bit error rate (default: the site's)")
+    p.add_argument("--margin-db", type=float, default=None, help="SNR margin to keep, dB (default: the site's)")
+    p.add_argument("--verify", action="store_true",
+                   help="re-run each chosen configuration by Monte Carlo and flag disagreement")
+    p.add_argument("--seed", type=int, default=0, help="seed of the --verify runs (default 0)")
+    p.add_argument("--csv", default=None, metavar="FILE", help="also write the table as CSV")
+    p.add_argument("--plot", default=None, metavar="FILE.png", help="draw rate against range")
+    p.add_argument("--overwrite", action="store_true", help="replace existing --csv/--plot files")
+    p.add_argument("--json", action="store_true", help="print one JSON object instead of the table")
+    p.set_defaults(func=run)
+
+
+def _outputs_free(args) -> None:
+    from aculink.errors import AculinkError
+
+    for option, path in (("--csv", args.csv), ("--plot", args.plot)):
+        if path is None:
+            continue
+        path = Path(path)
+        if path.exists() and not args.overwrite:
+            raise AculinkError(f"{option} {path} exists: pass --overwrite to replace it")
+        folder = path.parent if str(path.parent) else Path(".")
+        if not folder.is_dir():
+            raise AculinkError(f"{option}: output folder {folder} does not exist")
+
+
+def default_ranges(site):
+    """The default span, cut at the end of the site's seabed description."""
+    import numpy as np
+
+    ranges = parse_span(DEFAULT_RANGES, "--ranges-m")
+    keep = ranges[ranges <= site.seabed.max_range_m]
+    return keep if keep.size else np.array([site.seabed.max_range_m])
+
+
+def run(args) -> int:
+    from aculink.io.tables import format_table, write_csv
+    from aculink.planning.dataset import CAUTION
+    from aculink.planning.table import ROW_KEYS, VERIFY_KEYS, plan_rates, plan_rows
+
+    _outputs_free(args)
+    site = load_site_arg(args.site)
+    if args.ranges_m is None:
+        ranges = default_ranges(site)
+    else:
+        ranges = parse_span(args.ranges_m, "--ranges-m", positive=True)
+    receivers = args.receiver if args.receiver == "all" else [args.receiver]
+    ds = plan_rates(site, ranges, depth_m=args.depth_m, receivers=receivers,
+                    target_ber=args.target_ber, margin_db=args.margin_db, verify=args.verify,
+                    seed=args.seed)
+    rows = plan_rows(ds)
+    keys = ROW_KEYS + ("error",) + (VERIFY_KEYS if args.verify else ())
+    if args.csv:
+        write_csv(args.csv, keys, rows, overwrite=args.overwrite)
+    if args.plot:
+        from aculink.plots.plan import plot_plan
+
+        plot_plan(ds, site, args.plot)
+    if args.json:
+        print_json({"site": site.name, "receiver_depth_m": ds.attrs["receiver_depth_m"],
+                    "source_depth_m": ds.attrs["source_depth_m"],
+                    "target_ber": ds.attrs["target_ber"], "margin_db": ds.attrs["margin_db"],
+                    "receivers": list(ds["receiver"].values), "caution": CAUTION, "rows": rows})
+        return 0
+    print(heading(site, ds))
+    print(format_table(table_columns(args.verify), [display_row(r) for r in rows]))
+    for r in rows:
+        if r["error"]:
+            print(f"  {r['range_m'] / 1000:g} km: {r['error']}")
+    if args.verify:
+        flagged = [r for r in rows if r.get("verify_note")]
+        print(f"Monte Carlo check: {len(flagged)} of {sum(1 for r in rows if r['net_bit_rate_bps'])} "
+              "chosen configurations disagree with the prediction" + (":" if flagged else "."))
+        for r in flagged:
+            print(f"  {r['range_m'] / 1000:g} km: {r['verify_note']}")
+    print(f"caution: {CAUTION}")
+    for note in (args.csv and f"wrote {args.csv}", args.plot and f"wrote {args.plot}"):
+        if note:
+            print(note, file=sys.stderr)
+    return 0
+
+
+def heading(site, ds) -> str:
+    return (f"{site.name}: workable rate against range, receiver {ds.attrs['receiver_depth_m']:g} m deep, "
+            f"source {ds.attrs['source_depth_m']:g} m deep, target BER {ds.attrs['target_ber']:.0e} "
+            f"with {ds.attrs['margin_db']:g} dB margin")
+
+
+def table_columns(verify: bool) -> list:
+    cols = [("range_km", "range\nkm", "g"), ("rate_kbps", "net rate\nkbit/s", ".3g"),
+            ("modulation", "\nmodulation", ""), ("symbol_rate_baud", "symbol rate\nbaud", ".0f"),
+            ("receiver", "\nreceiver", ""), ("snr_band_db", "band SNR\ndB", ".1f"),
+            ("snr_out_db", "output SNR\ndB", ".1f"), ("ber_predicted", "predicted\nBER", ".1e"),
+            ("margin_db", "margin\ndB", ".1f"), ("spread_ms", "90% spread\nms", ".3g"),
+            ("tl_db", "TL\ndB re 1 m", ".1f")]
+    if verify:
+        cols += [("ber_measured", "measured\nBER", ".1e"), ("flag", "\ncheck", "")]
+    return cols
+
+
+def display_row(row: dict) -> dict:
+    """A table row in display units (km, kbit/s, ms)."""
+    out = dict(row)
+    out["range_km"] = row["range_m"] / 1000.0
+    rate = row["net_bit_rate_bps"]
+    out["rate_kbps"] = None if rate is None else rate / 1000.0
+    out["spread_ms"] = None if row["spread_90_s"] is None else row["spread_90_s"] * 1000.0
+    if "verify_note" in row and rate:
+        out["flag"] = "disagrees" if row["verify_note"] else "agrees"
+    if rate == 0:
+        out["modulation"] = "none workable"
+    for key in ("snr_band_db", "tl_db"):
+        if out.get(key) is not None and not math.isfinite(out[key]):
+            out[key] = None
+    return out
