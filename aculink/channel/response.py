@@ -18,7 +18,7 @@ from __future__ import annotations
 import numpy as np
 
 #: Relative size of the pulse tail that a response window may leave out (common practice).
-_TAIL_TOLERANCE = 1e-6
+_TAIL_TOLERANCE = 1e-5
 _MAX_WINDOW = 1 << 14
 
 

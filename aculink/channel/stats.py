@@ -63,19 +63,27 @@ def energy_spread(delay_s, power, fraction):
     return float(np.min(delay_s[j[ok] - 1] - delay_s[ok]))
 
 
-def _first_drop(func, scale, limit):
-    """Smallest x > 0 with func(x) <= 0.5, searched on a grid of ``scale``/64 up to ``limit``."""
-    if not np.isfinite(scale) or scale <= 0:
+def _first_drop(func, step, limit, chunk=512):
+    """Smallest x > 0 with func(x) <= 0.5, scanning a grid of ``step`` in chunks up to ``limit``
+    (inf when none) and refining the crossing with Brent's method."""
+    if not np.isfinite(step) or step <= 0:
         return np.inf
-    x = np.linspace(0.0, limit, int(min(max(limit / scale * 64, 256), 200_000)) + 1)
-    v = func(x)
-    below = np.flatnonzero(v <= 0.5)
-    if below.size == 0:
-        return np.inf
-    i = below[0]
-    if i == 0:
-        return 0.0
-    return float(optimize.brentq(lambda s: func(np.array([s]))[0] - 0.5, x[i - 1], x[i]))
+    step = max(step, limit / 2e6)
+    lo = 0.0
+    prev = None
+    while lo < limit:
+        x = lo + step * np.arange(chunk + 1)
+        v = func(x)
+        below = np.flatnonzero(v <= 0.5)
+        if below.size:
+            i = below[0]
+            if i == 0:
+                return float(lo) if prev is None else float(optimize.brentq(
+                    lambda s: func(np.array([s]))[0] - 0.5, lo - step, lo))
+            return float(optimize.brentq(lambda s: func(np.array([s]))[0] - 0.5, x[i - 1], x[i]))
+        prev = v[-1]
+        lo = x[-1]
+    return np.inf
 
 
 def coherence_bandwidth(delay_s, power):
@@ -89,7 +97,8 @@ def coherence_bandwidth(delay_s, power):
     def corr(df):
         return np.abs(np.exp(-2j * np.pi * np.outer(df, tau)) @ w)
 
-    return _first_drop(corr, 1.0 / max(tau.max(), spread), 20.0 / spread)
+    # the grid resolves the fastest oscillation of R (period 1 / delay span)
+    return _first_drop(corr, 1.0 / (16.0 * max(tau.max(), spread)), 20.0 / spread)
 
 
 def channel_statistics(channel, *, significant_db=SIGNIFICANT_DB, n_freq=257) -> dict:
@@ -156,5 +165,6 @@ def doppler_statistics(channel) -> dict:
             rho = np.exp(-np.outer(1.0 - r, std ** 2))
         return np.abs((np.exp(2j * np.pi * np.outer(dt, nu - mean)) * rho) @ w)
 
-    out["coherence_time_s"] = _first_drop(corr, 1.0 / spread / 8.0, 50.0 / spread)
+    span = max(float(np.ptp(nu)), spread)
+    out["coherence_time_s"] = _first_drop(corr, 1.0 / (16.0 * span), 50.0 / spread)
     return out

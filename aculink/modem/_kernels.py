@@ -9,7 +9,9 @@ decisions ``d[n - fb_delays[i]]``. The equalizer output is
 
 (the phase-coherent structure of Stojanovic, Catipovic and Proakis 1994). Symbols before
 ``n_train`` are training (decisions are the known symbols); afterwards decisions are the
-nearest constellation point. The phase estimate follows a second-order loop,
+nearest constellation point. From symbol ``pll_start`` on (adaptive receivers hold the loop
+until their taps have converged during the training, else the loop chases the phase of
+half-trained taps), the phase estimate follows a second-order loop,
 ``theta <- theta + K1 Phi + K2 sum Phi`` with ``Phi`` the normalized phase error of the
 feedforward output against its target ``d - b^H(-d_past)``.
 
@@ -65,7 +67,7 @@ def _build_regressor(vr, vi, yr, yi, s, n_ff, c, sn, dec_r, dec_i, n, fb_delays)
 
 @njit(cache=True, error_model="numpy", fastmath=_FLAGS)
 def rls_dfe(yr, yi, start0, stride, n_sym, n_ff, fb_delays, train, n_train, pts_r, pts_i,
-            lam, delta, k1, k2, theta0, out_zr, out_zi, out_dec, out_err2, out_theta, wr, wi):
+            lam, delta, k1, k2, pll_start, theta0, out_zr, out_zi, out_dec, out_err2, out_theta, wr, wi):
     """Exponentially weighted RLS DFE with a second-order PLL (see module docstring).
 
     ``wr, wi`` hold the initial taps (normally zero) and receive the final ones. Returns the
@@ -148,7 +150,7 @@ def rls_dfe(yr, yi, start0, stride, n_sym, n_ff, fb_delays, train, n_train, pts_
         tr = dr - fbr
         ti = di - fbi
         tt = tr * tr + ti * ti
-        if tt > 1e-12:
+        if tt > 1e-12 and t >= pll_start:
             phi = (ffi * tr - ffr * ti) / tt
             integ += phi
             theta += k1 * phi + k2 * integ
@@ -198,7 +200,7 @@ def rls_dfe(yr, yi, start0, stride, n_sym, n_ff, fb_delays, train, n_train, pts_
 
 @njit(cache=True, error_model="numpy", fastmath=_FLAGS)
 def nlms_dfe(yr, yi, start0, stride, n_sym, n_ff, fb_delays, train, n_train, pts_r, pts_i,
-             mu, eps, k1, k2, theta0, out_zr, out_zi, out_dec, out_err2, out_theta, wr, wi):
+             mu, eps, k1, k2, pll_start, theta0, out_zr, out_zi, out_dec, out_err2, out_theta, wr, wi):
     """Normalized LMS DFE with a second-order PLL: ``w <- w + mu v e* / (eps + |v|^2)``."""
     n = n_ff + fb_delays.size
     vr = np.zeros(n)
@@ -247,7 +249,7 @@ def nlms_dfe(yr, yi, start0, stride, n_sym, n_ff, fb_delays, train, n_train, pts
         tr = dr - fbr
         ti = di - fbi
         tt = tr * tr + ti * ti
-        if tt > 1e-12:
+        if tt > 1e-12 and t >= pll_start:
             phi = (ffi * tr - ffr * ti) / tt
             integ += phi
             theta += k1 * phi + k2 * integ
@@ -256,7 +258,7 @@ def nlms_dfe(yr, yi, start0, stride, n_sym, n_ff, fb_delays, train, n_train, pts
 
 @njit(cache=True, error_model="numpy", fastmath=_FLAGS)
 def fixed_dfe(yr, yi, start0, stride, n_sym, n_ff, fb_delays, train, n_train, pts_r, pts_i,
-              scale, k1, k2, theta0, out_zr, out_zi, out_dec, out_err2, out_theta, wr, wi):
+              scale, k1, k2, pll_start, theta0, out_zr, out_zi, out_dec, out_err2, out_theta, wr, wi):
     """A DFE with fixed taps ``w`` (e.g. a designed MMSE-DFE) and a second-order PLL.
 
     The output is multiplied by ``scale`` (1/bias for unbiased decisions). With one
@@ -306,7 +308,7 @@ def fixed_dfe(yr, yi, start0, stride, n_sym, n_ff, fb_delays, train, n_train, pt
         tr = dr - fbr
         ti = di - fbi
         tt = tr * tr + ti * ti
-        if tt > 1e-12:
+        if tt > 1e-12 and t >= pll_start:
             phi = (ffi * tr - ffr * ti) / tt
             integ += phi
             theta += k1 * phi + k2 * integ

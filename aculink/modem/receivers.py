@@ -254,15 +254,16 @@ def run_frame(plan: ReceiverPlan, stream, start0: int, n_sym: int, train_labels,
         wr, wi = w.real.copy(), w.imag.copy()
         scale = 1.0 / design.bias if plan.receiver == "mmse-dfe" else 1.0
         restarts = _kernels.fixed_dfe(yr, yi, start0, 2, n_sym, plan.n_ff, fbd, train, train.size, pr, pi,
-                                      scale, k1, k2, 0.0, *out, wr, wi)
+                                      scale, k1, k2, 0, 0.0, *out, wr, wi)
     else:
         wr, wi = np.zeros(n), np.zeros(n)
+        pll_start = train.size // 2
         if plan.algorithm == "rls":
             restarts = _kernels.rls_dfe(yr, yi, start0, 2, n_sym, plan.n_ff, fbd, train, train.size, pr, pi,
-                                        plan.forgetting, rls_delta, k1, k2, 0.0, *out, wr, wi)
+                                        plan.forgetting, rls_delta, k1, k2, pll_start, 0.0, *out, wr, wi)
         else:
             restarts = _kernels.nlms_dfe(yr, yi, start0, 2, n_sym, plan.n_ff, fbd, train, train.size, pr, pi,
-                                         plan.step, 1e-6, k1, k2, 0.0, *out, wr, wi)
+                                         plan.step, 1e-6, k1, k2, pll_start, 0.0, *out, wr, wi)
     w = wr + 1j * wi
     return FrameOutput(out[0] + 1j * out[1], out[2], out[3], out[4], w[:plan.n_ff], w[plan.n_ff:], fbd,
                        int(restarts))

@@ -215,14 +215,13 @@ def evaluate_block(site, ranges_m, depths_m, grid: CandidateGrid, target_ber) ->
     if not keep.any():
         return out
     rolloff = site.modem.rolloff
-    arrivals = find_arrivals(site, ranges, depths[keep])
+    arrivals = find_arrivals(site, ranges, depths[keep], freq_hz=band_frequencies(site))
     for i, r in enumerate(ranges):
-        for jj, j in enumerate(np.nonzero(keep)[0]):
+        for j in np.nonzero(keep)[0]:
             if not inside[i, j]:
                 continue
             try:
-                one = arrivals.isel(range=[i], depth=[jj])
-                channel = Channel.from_arrivals(one, site, range_m=r, depth_m=depths[j])
+                channel = Channel.from_arrivals(arrivals, site, range_m=r, depth_m=depths[j])
                 here = site.with_geometry(range_m=r, depth_m=depths[j])
                 budget = link_budget(here, channel)
                 stats = channel.statistics()
@@ -241,6 +240,17 @@ def evaluate_block(site, ranges_m, depths_m, grid: CandidateGrid, target_ber) ->
             except (ValueError, ArithmeticError, np.linalg.LinAlgError) as exc:
                 out["error"][i, j] = one_line(exc)
     return out
+
+
+#: Frequencies across the modem band at which the arrivals are evaluated (as the channel stage's
+#: ``channel_for_site`` does), so absorption and reflection vary across the band.
+BAND_FREQUENCIES = 17
+
+
+def band_frequencies(site) -> np.ndarray:
+    """The passband grid [fc - B/2, fc + B/2] the arrivals are evaluated on, Hz."""
+    fc, b = site.modem.carrier_hz, site.modem.bandwidth_hz
+    return np.linspace(fc - b / 2.0, fc + b / 2.0, BAND_FREQUENCIES)
 
 
 #: Per-position fields an evaluator fills, with their fill value.

@@ -107,7 +107,7 @@ def verify_plan(site, ds, *, seed=0, n_symbols=VERIFY_SYMBOLS):
     target = float(ds.attrs["target_ber"])
     if chosen.size:
         ranges = ds["range"].values[chosen]
-        arrivals = find_arrivals(site, ranges, [z])
+        arrivals = find_arrivals(site, ranges, [z], freq_hz=search.band_frequencies(site))
         for k, i in enumerate(chosen):
             r = float(ds["range"].values[i])
             channel = Channel.from_arrivals(arrivals.isel(range=[k]), site, range_m=r, depth_m=z)

@@ -80,6 +80,8 @@ END_STEPS = 3  # step budget used up
 _EV_NONE, _EV_SURFACE, _EV_BOTTOM, _EV_RANGE, _EV_TURN = 0, 1, 2, 3, 4
 _NEWTON_ITERATIONS = 4
 _LAND_TOL_M = 1e-10
+# a ray stepped onto a knot is put this far past it, on the side it is heading to
+_KNOT_NUDGE_M = 1e-9
 
 
 @nb.njit(cache=True, inline="always", error_model="numpy")
@@ -94,20 +96,20 @@ def _rhs(z, zeta, dz, dzeta, xi, dxi, knots, coef, hint):
     fdz = cz * dz * zeta + c * dzeta
     fdzeta = -(czz - 2.0 * cz * cz * inv) * inv * inv * dz
     fdt = -cz * inv * inv * dz
-    return fx, fz, fzeta, inv, fdx, fdz, fdzeta, fdt, hint
+    return fx, fz, fzeta, inv, fdx, fdz, fdzeta, fdt, c, cz, hint
 
 
 @nb.njit(cache=True, inline="always", error_model="numpy")
-def _rk4(x, z, zeta, t, dx, dz, dzeta, dt, xi, dxi, h, knots, coef, hint):
-    """One classical RK4 step of length h (arc length, m)."""
-    k1x, k1z, k1e, k1t, k1a, k1b, k1c, k1d, hint = _rhs(z, zeta, dz, dzeta, xi, dxi, knots, coef, hint)
+def _rk4(x, z, zeta, t, dx, dz, dzeta, dt, xi, dxi, h, k1x, k1z, k1e, k1t, k1a, k1b, k1c, k1d, knots, coef,
+         hint):
+    """One classical RK4 step of length h (arc length, m), given the first stage ``k1``."""
     hh = 0.5 * h
-    k2x, k2z, k2e, k2t, k2a, k2b, k2c, k2d, hint = _rhs(z + hh * k1z, zeta + hh * k1e, dz + hh * k1b,
-                                                       dzeta + hh * k1c, xi, dxi, knots, coef, hint)
-    k3x, k3z, k3e, k3t, k3a, k3b, k3c, k3d, hint = _rhs(z + hh * k2z, zeta + hh * k2e, dz + hh * k2b,
-                                                       dzeta + hh * k2c, xi, dxi, knots, coef, hint)
-    k4x, k4z, k4e, k4t, k4a, k4b, k4c, k4d, hint = _rhs(z + h * k3z, zeta + h * k3e, dz + h * k3b,
-                                                       dzeta + h * k3c, xi, dxi, knots, coef, hint)
+    k2x, k2z, k2e, k2t, k2a, k2b, k2c, k2d, _, _, hint = _rhs(z + hh * k1z, zeta + hh * k1e, dz + hh * k1b,
+                                                             dzeta + hh * k1c, xi, dxi, knots, coef, hint)
+    k3x, k3z, k3e, k3t, k3a, k3b, k3c, k3d, _, _, hint = _rhs(z + hh * k2z, zeta + hh * k2e, dz + hh * k2b,
+                                                             dzeta + hh * k2c, xi, dxi, knots, coef, hint)
+    k4x, k4z, k4e, k4t, k4a, k4b, k4c, k4d, _, _, hint = _rhs(z + h * k3z, zeta + h * k3e, dz + h * k3b,
+                                                             dzeta + h * k3c, xi, dxi, knots, coef, hint)
     w = h / 6.0
     x1 = x + w * (k1x + 2.0 * (k2x + k3x) + k4x)
     z1 = z + w * (k1z + 2.0 * (k2z + k3z) + k4z)
@@ -118,6 +120,28 @@ def _rk4(x, z, zeta, t, dx, dz, dzeta, dt, xi, dxi, h, knots, coef, hint):
     c1 = dzeta + w * (k1c + 2.0 * (k2c + k3c) + k4c)
     d1 = dt + w * (k1d + 2.0 * (k2d + k3d) + k4d)
     return x1, z1, e1, t1, a1, b1, c1, d1, hint
+
+
+@nb.njit(cache=True, inline="always", error_model="numpy")
+def _first_root(a, b, d, hmax):
+    """Smallest root h in (0, hmax] of b h^2 + a h + d = 0, or -1 when there is none."""
+    best = -1.0
+    if abs(b) * hmax < 1e-12 * max(abs(a), 1e-300):
+        if a != 0.0:
+            h = -d / a
+            if 0.0 < h <= hmax:
+                best = h
+        return best
+    disc = a * a - 4.0 * b * d
+    if disc < 0.0:
+        return best
+    sq = math.sqrt(disc)
+    qq = -0.5 * (a + sq) if a >= 0.0 else -0.5 * (a - sq)
+    if qq != 0.0:
+        for h in (qq / b, d / qq):
+            if 0.0 < h <= hmax and (best < 0.0 or h < best):
+                best = h
+    return best
 
 
 @nb.njit(cache=True, inline="always", error_model="numpy")
@@ -200,6 +224,10 @@ def trace_ray(theta0, zs, knots, coef, bed_r, bed_z, bed_slope, bt_step, bt_re, 
     n_bins = bins.shape[0]
     n_ab = ab_db.shape[0]
     n_bt = bt_re.shape[0]
+    n_knots = knots.shape[0]
+    z_knot_max = 0.0
+    for m in range(bed_z.shape[0]):
+        z_knot_max = max(z_knot_max, bed_z[m])
     npts = 0
     if cap > 0:
         px[0] = x
@@ -220,42 +248,65 @@ def trace_ray(theta0, zs, knots, coef, bed_r, bed_z, bed_slope, bt_step, bt_re, 
             x_ev = rec_r[jrec]
         if seg + 1 < n_seg and bed_r[seg + 1] < x_ev:
             x_ev = bed_r[seg + 1]
-        x1, z1, e1, t1, a1, b1, c1, d1, h1 = _rk4(x, z, zeta, t, dx, dz, dzeta, dt, xi, dxi, ds, knots, coef, hint)
+        k1x, k1z, k1e, k1t, k1a, k1b, k1c, k1d, cs, czs, hint = _rhs(z, zeta, dz, dzeta, xi, dxi, knots, coef,
+                                                                     hint)
+        # shorten the step to end on the next profile knot, so that every RK4 step stays inside one
+        # smooth cubic piece (d2c/dz2 jumps at knots would cost the scheme its order); the quadratic
+        # prediction of z(h) lands within about 1e-7 m of the knot
+        hstep = ds
+        knot_dir = 0
+        piece = hint
+        if k1z < 0.0 and z <= knots[piece] and piece > 0:
+            piece -= 1
+        b2 = 0.5 * k1e * cs * cs * cs * xi * xi  # (d2z/ds2) / 2 = -c_z c xi^2 / 2
+        if piece + 1 < n_knots:
+            zb_hi = knots[piece + 1]
+            if 0.0 < zb_hi < z_knot_max and (k1z > 0.0 or b2 > 0.0):
+                hk = _first_root(k1z, b2, z - zb_hi, hstep)
+                if hk > 0.0:
+                    hstep = hk
+                    knot_dir = 1
+            zb_lo = knots[piece]
+            if 0.0 < zb_lo < z_knot_max and (k1z < 0.0 or b2 < 0.0):
+                hk = _first_root(k1z, b2, z - zb_lo, hstep)
+                if hk > 0.0:
+                    hstep = hk
+                    knot_dir = -1
+        x1, z1, e1, t1, a1, b1, c1, d1, h1 = _rk4(x, z, zeta, t, dx, dz, dzeta, dt, xi, dxi, hstep, k1x, k1z, k1e,
+                                                  k1t, k1a, k1b, k1c, k1d, knots, coef, hint)
         kind = _EV_NONE
-        h = ds
+        h = hstep
         # pick the event with the shortest tangent-predicted distance
-        best = ds * 2.0
+        best = hstep * 2.0
         if z1 < 0.0:
-            r = _event_rate(_EV_SURFACE, z, zeta, xi, bsl, knots, coef, hint)
-            hp = -z / r if r < 0.0 else ds
-            hp = min(max(hp, 0.0), ds)
+            hp = -z / k1z if k1z < 0.0 else hstep
+            hp = min(max(hp, 0.0), hstep)
             if hp < best:
                 best = hp
                 kind = _EV_SURFACE
         if z1 > bz0 + bsl * (x1 - bx0):
             g0 = z - (bz0 + bsl * (x - bx0))
-            r = _event_rate(_EV_BOTTOM, z, zeta, xi, bsl, knots, coef, hint)
-            hp = -g0 / r if r > 0.0 else ds
-            hp = min(max(hp, 0.0), ds)
+            r = k1z - bsl * k1x
+            hp = -g0 / r if r > 0.0 else hstep
+            hp = min(max(hp, 0.0), hstep)
             if hp < best:
                 best = hp
                 kind = _EV_BOTTOM
         if x1 >= x_ev:
-            r = _event_rate(_EV_RANGE, z, zeta, xi, bsl, knots, coef, hint)
-            hp = (x_ev - x) / r if r > 0.0 else ds
-            hp = min(max(hp, 0.0), ds)
+            hp = (x_ev - x) / k1x if k1x > 0.0 else hstep
+            hp = min(max(hp, 0.0), hstep)
             if hp < best:
                 best = hp
                 kind = _EV_RANGE
         if zeta * e1 < 0.0:
-            r = _event_rate(_EV_TURN, z, zeta, xi, bsl, knots, coef, hint)
-            hp = -zeta / r if r != 0.0 else ds
-            hp = min(max(hp, 0.0), ds)
+            hp = -zeta / k1e if k1e != 0.0 else hstep
+            hp = min(max(hp, 0.0), hstep)
             if hp < best:
                 best = hp
                 kind = _EV_TURN
         if kind != _EV_NONE:
-            # land on the event: safeguarded Newton on the step length inside [0, ds]
+            knot_dir = 0
+            # land on the event: safeguarded Newton on the step length inside [0, hstep]
             if kind == _EV_SURFACE:
                 inside = 1.0
             elif kind == _EV_TURN:
@@ -263,13 +314,13 @@ def trace_ray(theta0, zs, knots, coef, bed_r, bed_z, bed_slope, bt_step, bt_re, 
             else:
                 inside = -1.0
             lo = 0.0
-            hi = ds
-            h = best if best > 0.0 else 0.5 * ds
+            hi = hstep
+            h = best if best > 0.0 else 0.5 * hstep
             tol = _LAND_TOL_M if kind != _EV_TURN else _LAND_TOL_M * 1e-6
             landed = False
             for _ in range(_NEWTON_ITERATIONS):
-                x1, z1, e1, t1, a1, b1, c1, d1, h1 = _rk4(x, z, zeta, t, dx, dz, dzeta, dt, xi, dxi, h, knots, coef,
-                                                      hint)
+                x1, z1, e1, t1, a1, b1, c1, d1, h1 = _rk4(x, z, zeta, t, dx, dz, dzeta, dt, xi, dxi, h, k1x, k1z,
+                                                          k1e, k1t, k1a, k1b, k1c, k1d, knots, coef, hint)
                 g = _event_value(kind, x1, z1, e1, bz0, bsl, bx0, x_ev)
                 if abs(g) < tol:
                     landed = True
@@ -284,8 +335,8 @@ def trace_ray(theta0, zs, knots, coef, bed_r, bed_z, bed_slope, bt_step, bt_re, 
                     hn = 0.5 * (lo + hi)
                 h = hn
             if not landed:
-                x1, z1, e1, t1, a1, b1, c1, d1, h1 = _rk4(x, z, zeta, t, dx, dz, dzeta, dt, xi, dxi, h, knots, coef,
-                                                      hint)
+                x1, z1, e1, t1, a1, b1, c1, d1, h1 = _rk4(x, z, zeta, t, dx, dz, dzeta, dt, xi, dxi, h, k1x, k1z,
+                                                          k1e, k1t, k1a, k1b, k1c, k1d, knots, coef, hint)
         # absorption and path length per depth bin, at the step midpoint depth
         zm = 0.5 * (z + z1)
         if n_ab > 0:
@@ -307,6 +358,10 @@ def trace_ray(theta0, zs, knots, coef, bed_r, bed_z, bed_slope, bt_step, bt_re, 
         dt = d1
         hint = h1
         s += h
+        if knot_dir == 1:
+            z = knots[piece + 1] + _KNOT_NUDGE_M
+        elif knot_dir == -1:
+            z = knots[piece] - _KNOT_NUDGE_M
         if kind == _EV_SURFACE:
             z = 0.0
         elif kind == _EV_BOTTOM:

@@ -102,6 +102,8 @@ DEFAULT_WIND_SPEED_MPS = 5.0
 CTD_COLUMNS = ("depth_m", "pressure_dbar", "temperature_c", "salinity_psu")
 #: A table or cast may start this far below the surface; its top value is carried up to 0 m.
 MAX_TOP_GAP_M = 10.0
+#: Closest two profile nodes may be, m (closer nodes make the interpolating cubic meaningless).
+MIN_NODE_SPACING_M = 0.01
 #: Node spacing used to tabulate a curved analytic profile, m (finer for shallow water).
 _ANALYTIC_STEP_M = 2.0
 
@@ -131,19 +133,21 @@ def _numbers(section, key, value, low, high, unit="", *, scalar_ok=False, low_op
 
 def _increasing(section, key, values, unit="m"):
     steps = np.diff(values)
-    if np.any(steps <= 0):
-        i = int(np.argmax(steps <= 0)) + 1
+    if np.any(steps < MIN_NODE_SPACING_M):
+        i = int(np.argmax(steps < MIN_NODE_SPACING_M)) + 1
         raise AculinkError(f"[{section}] {key}[{i}] = {values[i]:g} {unit}: values must be strictly "
-                           f"increasing (previous value {values[i - 1]:g} {unit})")
+                           f"increasing, by at least {MIN_NODE_SPACING_M:g} {unit} (previous value "
+                           f"{values[i - 1]:g} {unit})")
 
 
 def _text(section, key, value, choices=None):
+    field = key if section is None else f"[{section}] {key}"
     if not isinstance(value, str):
-        raise AculinkError(f"[{section}] {key} = {value!r}: expected text")
+        raise AculinkError(f"{field} = {value!r}: expected text")
     if choices is not None:
         v = value.strip().lower()
         if v not in choices:
-            raise AculinkError(f"[{section}] {key} = {value!r}: allowed values are "
+            raise AculinkError(f"{field} = {value!r}: allowed values are "
                                f"{', '.join(repr(c) for c in choices)}{closest(v, choices)}")
         return v
     return value
@@ -246,8 +250,8 @@ def _surface_top(depth_m, *columns, key="depth_m"):
     if depth_m[0] > MAX_TOP_GAP_M:
         raise AculinkError(f"[water] {key}[0] = {depth_m[0]:g} m: the shallowest value must be within "
                            f"[0, {MAX_TOP_GAP_M:g}] m of the surface")
-    if depth_m[0] == 0.0:
-        return (depth_m, *columns)
+    if depth_m[0] < MIN_NODE_SPACING_M:  # at the surface, to the nearest centimetre
+        return (np.concatenate(([0.0], depth_m[1:])), *columns)
     return (np.concatenate(([0.0], depth_m)),
             *[None if c is None else np.concatenate(([c[0]], c)) for c in columns])
 
@@ -330,10 +334,11 @@ def read_ctd_csv(path):
     out = {c: np.array(v) for c, v in data.items()}
     z = out[where]
     steps = np.diff(z)
-    if np.any(steps <= 0):
-        i = int(np.argmax(steps <= 0)) + 1
+    if np.any(steps < MIN_NODE_SPACING_M):
+        i = int(np.argmax(steps < MIN_NODE_SPACING_M)) + 1
         raise AculinkError(f"{path}, line {numbered[i + 1][0]}: {where} = {z[i]:g} does not increase "
-                           f"(previous {z[i - 1]:g}): use the downcast only, strictly increasing")
+                           f"(previous {z[i - 1]:g}): use the downcast only, strictly increasing by at "
+                           f"least {MIN_NODE_SPACING_M:g}")
     return out
 
 
@@ -553,8 +558,8 @@ def _site_from_dict(data, base_dir, name, text, path):
         if section not in data:
             raise AculinkError(f"[{section}] section is missing: it is required")
     sections = {s: _table(data, s) for s in SECTION_KEYS}
-    site_name = name if "name" not in data else _text("site", "name", data["name"]).strip() or name
-    description = "" if "description" not in data else _text("site", "description", data["description"])
+    site_name = name if "name" not in data else _text(None, "name", data["name"]).strip() or name
+    description = "" if "description" not in data else _text(None, "description", data["description"])
 
     _check_keys("seabed", sections["seabed"], SECTION_KEYS["seabed"])
     # the water must reach the deepest seabed point; read the seabed depths first for that

@@ -266,7 +266,12 @@ class Site:
                 f"{self.seabed.max_depth_m:g} m: the profile must reach the deepest seabed point")
 
     def with_geometry(self, *, range_m=None, depth_m=None, source_depth_m=None) -> "Site":
-        """A copy with the receiver moved and/or the source depth changed."""
+        """A copy with the receiver moved and/or the source depth changed.
+
+        The new values are checked against :data:`LIMITS` (finite, positive depth and range)
+        but not against the seabed: a caller sweeping a grid decides what to do with points
+        below the seabed (the loader checks the file's own geometry).
+        """
         site = self
         if range_m is not None or depth_m is not None:
             rx = dataclasses.replace(

@@ -76,7 +76,7 @@ def profile_features(profile, bottom_m: float) -> dict:
     References
     ----------
     R. J. Urick, Principles of Underwater Sound, 3rd ed. (1983), ch. 5 (mixed layer, deep
-    sound channel, critical depth and depth excess); W. H. Munk, J. Acoust. Soc. Am. 55,
+    sound channel, critical depth and depth excess; chapter from memory); W. H. Munk, J. Acoust. Soc. Am. 55,
     220-226 (1974) for the canonical axis at 1300 m.
     """
     z = _grid(bottom_m)
@@ -208,6 +208,7 @@ def summarize_site(site) -> dict:
         "bottom_loss_grazing_deg": list(GRAZING_ANGLES_DEG),
         "bottom_loss_db": [_round(v, 2) for v in loss],
     }
+    # the handbook behind the presets covers 10-100 kHz (APL-UW TR 9407 title; from memory)
     if bed.sediment is not None and modem.carrier_hz < 10e3:
         warnings.append(f"sediment presets were compiled for 10 kHz to 100 kHz (APL-UW TR 9407); at "
                         f"{modem.carrier_hz / 1e3:g} kHz treat the seabed values as indicative")

@@ -5,12 +5,8 @@ from __future__ import annotations
 import copy
 import json
 import math
-from pathlib import Path
 
 import pytest
-
-ROOT = Path(__file__).resolve().parents[2]
-ENVIRONMENTS = ROOT / "environments"
 
 #: A small valid site of our own: 100 m of water over sand, a 2 km link.
 BASE = {
@@ -59,18 +55,6 @@ def to_toml(data: dict) -> str:
             lines.append(f"\n[{json.dumps(key)}]")
             lines += [f"{json.dumps(k)} = {_value(v)}" for k, v in table.items()]
     return "\n".join(lines) + "\n"
-
-
-@pytest.fixture
-def environments():
-    """The folder of bundled site files."""
-    return ENVIRONMENTS
-
-
-@pytest.fixture
-def toml_text():
-    """The :func:`to_toml` writer (test modules here are not a package, so it comes as a fixture)."""
-    return to_toml
 
 
 @pytest.fixture

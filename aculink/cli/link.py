@@ -1,0 +1,132 @@
+"""``aculink link [SITE]``: simulate the modem over a site's channel (or a channel file)."""
+
+from __future__ import annotations
+
+import math
+
+from aculink.cli._common import add_site_argument, load_site_arg, print_json
+
+CAUTION = ("Caution: simulated planning estimate, not a guarantee. Sound in water can harm marine "
+           "life and people; follow local regulations and permits before transmitting.")
+
+
+def register(subparsers) -> None:
+    parser = subparsers.add_parser(
+        "link",
+        help="simulate a PSK/QAM link with a chosen receiver: BER, output SNR, net bit rate",
+        description="Send frames of training and random data through the site's channel (or a "
+        "channel file) with the budget's coloured noise, receive them with the chosen receiver "
+        "(none, linear, dfe, mmse-dfe) and report the bit error rate with its 95% interval, the "
+        "measured and predicted output SNR, the training overhead and the net bit rate.",
+    )
+    add_site_argument(parser, optional=True)
+    parser.add_argument("--range-m", type=float, default=None, metavar="R", help="receiver range, m")
+    parser.add_argument("--depth-m", type=float, default=None, metavar="Z", help="receiver depth, m")
+    parser.add_argument("--rate-baud", type=float, required=True, metavar="RS", help="symbol rate, Bd")
+    parser.add_argument("--modulation", default="qpsk", help="bpsk, qpsk, 8psk, 16qam or 64qam (default qpsk)")
+    parser.add_argument("--receiver", default="dfe", help="none, linear, dfe or mmse-dfe (default dfe)")
+    parser.add_argument("--algorithm", default="rls", help="adaptation of linear/dfe: rls or nlms (default rls)")
+    parser.add_argument("--rolloff", type=float, default=None, help="RRC roll-off (default: the site's, else 0.25)")
+    parser.add_argument("--symbols", type=int, default=20000, metavar="N", help="most payload symbols to send (default 20000)")
+    parser.add_argument("--max-errors", type=int, default=200, metavar="E", help="stop after E bit errors (default 200)")
+    parser.add_argument("--sparse", action="store_true", help="feedback taps only where the channel has energy")
+    parser.add_argument("--seed", type=int, default=0, metavar="S", help="random seed (default 0)")
+    parser.add_argument("--snr-db", type=float, default=None, metavar="X",
+                        help="band SNR, dB, replacing the budget's (white noise)")
+    parser.add_argument("--channel-file", default=None, metavar="F",
+                        help="tap list or measured response (CSV/NetCDF, format in the README) instead of the site's channel")
+    parser.add_argument("--carrier-hz", type=float, default=None, help="carrier for a channel file without one")
+    parser.add_argument("--bandwidth-hz", type=float, default=None, help="bandwidth for a channel file without one")
+    parser.add_argument("--json", action="store_true", help="print one JSON object")
+    parser.add_argument("--plot", metavar="FILE.png", help="constellation, learning curve and equalizer taps")
+    parser.add_argument("--overwrite", action="store_true", help="replace an existing --plot file")
+    parser.set_defaults(func=run)
+
+
+def _channel_and_budget(args):
+    from aculink.channel import channel_for_site, link_budget, load_channel_file
+    from aculink.errors import AculinkError
+
+    site = load_site_arg(args.site) if args.site else None
+    if args.channel_file:
+        fc = args.carrier_hz if args.carrier_hz is not None else (site.modem.carrier_hz if site else None)
+        bw = args.bandwidth_hz if args.bandwidth_hz is not None else (site.modem.bandwidth_hz if site else None)
+        channel = load_channel_file(args.channel_file, carrier_hz=fc, bandwidth_hz=bw, symbol_rate_baud=args.rate_baud)
+        if args.snr_db is None and site is None:
+            raise AculinkError("--snr-db is required with --channel-file unless a SITE gives the link budget")
+    else:
+        if site is None:
+            raise AculinkError("SITE is required unless --channel-file is given")
+        channel = channel_for_site(site, args.range_m, args.depth_m)
+    budget = None
+    if args.snr_db is None:
+        budget = link_budget(site, channel)
+        if budget.no_path:
+            raise AculinkError(f"no acoustic path reaches the receiver: {budget.reason or 'no eigenray'}")
+    return site, channel, budget
+
+
+def report(site, channel, result) -> dict:
+    """The JSON object: the result's numbers plus site, geometry and units."""
+    out = {"site": site.name if site else None, "channel": channel.name}
+    geo = getattr(channel, "geometry", {}) or {}
+    out.update({k: geo.get(k) for k in ("range_m", "receiver_depth_m", "source_depth_m") if k in geo})
+    out.update(result.to_dict())
+    out["units"] = {"snr_in_db": "dB (band SNR: received power / noise power in the band)",
+                    "es_n0_db": "dB (received Es/N0)", "snr_out_db": "dB (measured, unbiased)",
+                    "snr_predicted_db": "dB (finite-length MMSE estimate of this receiver)",
+                    "net_bit_rate_bps": "bit/s", "symbol_rate_baud": "Bd",
+                    "training_fraction": "1 (training, tail marker and guard over the frame)"}
+    out["caution"] = CAUTION
+    return out
+
+
+def format_report(rep: dict) -> str:
+    def db(v):
+        return "n/a" if v is None or (isinstance(v, float) and not math.isfinite(v)) else f"{v:.1f} dB"
+
+    rows = [("Site", rep["site"] or "(channel file)"), ("Channel", rep["channel"])]
+    if rep.get("range_m") is not None:
+        rows.append(("Geometry", f"receiver at {rep['range_m'] / 1000:g} km, {rep.get('receiver_depth_m', float('nan')):g} m deep"))
+    rows += [
+        ("Signal", f"{rep['modulation']} at {rep['symbol_rate_baud']:g} Bd, RRC roll-off {rep['rolloff']:g}"),
+        ("Receiver", f"{rep['receiver']}" + (f" ({rep['algorithm']})" if rep["algorithm"] != "none" else "")
+         + f", {rep['n_ff']} feedforward (T/2) and {rep['n_fb']} feedback taps"),
+        ("Frame", f"{rep['n_training']} training + {rep['n_payload']} payload symbols; overhead "
+                  f"{100 * rep['training_fraction']:.1f} %"),
+        ("Band SNR in", db(rep["snr_in_db"])),
+        ("Es/N0 received", db(rep["es_n0_db"])),
+        ("Output SNR measured", db(rep["snr_out_db"])),
+        ("Output SNR predicted", db(rep["snr_predicted_db"])),
+        ("BER", f"{rep['ber']:.3g}  (95% interval {rep['ber_low']:.3g} to {rep['ber_high']:.3g}; "
+                f"{rep['bit_errors']} errors in {rep['bits']} bits, {rep['frames']} frames)"),
+        ("BER predicted", f"{rep['ber_predicted']:.3g}"),
+        ("Net bit rate", f"{rep['net_bit_rate_bps']:.0f} bit/s"),
+        ("Doppler estimate", f"{rep['doppler_estimate']:.2e} (time scale)"),
+    ]
+    width = max(len(k) for k, _ in rows)
+    return "\n".join([f"{k:<{width}}  {v}" for k, v in rows] + ["", rep["caution"]])
+
+
+def run(args) -> int:
+    from aculink.modem import simulate_link
+
+    site, channel, budget = _channel_and_budget(args)
+    rolloff = args.rolloff if args.rolloff is not None else (site.modem.rolloff if site else None)
+    result = simulate_link(channel, symbol_rate_baud=args.rate_baud, modulation=args.modulation,
+                           receiver=args.receiver, budget=budget, snr_db=args.snr_db, rolloff=rolloff,
+                           n_symbols=args.symbols, max_errors=args.max_errors, seed=args.seed,
+                           algorithm=args.algorithm, sparse=args.sparse)
+    rep = report(site, channel, result)
+    if args.plot:
+        from aculink.plots.link import plot_link
+
+        plot_link(result, args.plot, site=site, channel=channel, overwrite=args.overwrite)
+        rep["plot"] = args.plot
+    if args.json:
+        print_json(rep)
+    else:
+        print(format_report(rep))
+        if args.plot:
+            print(f"plot written to {args.plot}")
+    return 0

@@ -1,0 +1,79 @@
+"""``aculink rays SITE``: trace a fan of rays and draw it over the profile and the seabed."""
+
+from __future__ import annotations
+
+from aculink.cli._common import add_site_argument, load_site_arg, parse_count_span, print_json
+
+
+def register(subparsers) -> None:
+    parser = subparsers.add_parser(
+        "rays",
+        help="trace a fan of rays from the source and draw it over the sound-speed profile and seabed",
+        description="Trace a fan of rays from the source through the site's sound-speed profile, "
+        "reflecting at the surface and the (sloping) seabed, and summarise where they go. With --plot, "
+        "draw the fan beside the profile, rays coloured by how many boundaries they met.",
+    )
+    add_site_argument(parser)
+    parser.add_argument("--angles-deg", default="-30:30:121", metavar="START:STOP:COUNT",
+                        help="launch angles, deg below the horizontal (default -30:30:121)")
+    parser.add_argument("--max-range-m", type=float, default=None, metavar="R",
+                        help="trace out to this range, m (default the receiver range)")
+    parser.add_argument("--source-depth-m", type=float, default=None, metavar="Z",
+                        help="source depth, m (default the site's source)")
+    parser.add_argument("--colour-by", choices=("bounces", "angle"), default="bounces",
+                        help="colour rays by boundary history (default) or by launch angle")
+    parser.add_argument("--plot", metavar="FILE.png", help="draw the fan to this PNG file")
+    parser.add_argument("--overwrite", action="store_true", help="replace an existing --plot file")
+    parser.add_argument("--json", action="store_true", help="print the per-ray summary as one JSON object")
+    parser.set_defaults(func=run)
+
+
+def _check_plot(args):
+    from pathlib import Path
+
+    from aculink.errors import AculinkError
+
+    if args.plot is None:
+        return
+    if Path(args.plot).suffix.lower() != ".png":
+        raise AculinkError(f"--plot = '{args.plot}': expected a file name ending in .png")
+    if Path(args.plot).exists() and not args.overwrite:
+        raise AculinkError(f"--plot = '{args.plot}': the file exists; pass --overwrite to replace it")
+
+
+def run(args) -> int:
+    import numpy as np
+
+    from aculink.propagation.rays import TERMINATION_MEANINGS, trace_rays
+
+    _check_plot(args)
+    angles = parse_count_span(args.angles_deg, "--angles-deg")
+    site = load_site_arg(args.site)
+    fan = trace_rays(site, source_depth_m=args.source_depth_m, angles_deg=angles, max_range_m=args.max_range_m)
+    if args.plot is not None:
+        from aculink.plots.rays import plot_rays
+
+        plot_rays(site, fan, args.plot, colour_by=args.colour_by, overwrite=args.overwrite)
+    meanings = TERMINATION_MEANINGS.split()
+    term = fan.termination.values
+    counts = {meanings[k]: int(np.sum(term == k)) for k in range(len(meanings))}
+    if args.json:
+        print_json({
+            "site": site.name, "source_depth_m": fan.attrs["source_depth_m"], "max_range_m": fan.attrs["max_range_m"],
+            "rays": [{"launch_angle_deg": float(a), "surface_bounces": int(s), "bottom_bounces": int(b),
+                      "caustics": int(c), "termination": meanings[int(t)], "end_range_m": float(e)}
+                     for a, s, b, c, t, e in zip(fan.launch_angle_deg.values, fan.surface_bounces.values,
+                                                 fan.bottom_bounces.values, fan.caustics.values, term,
+                                                 fan.end_range_m.values)],
+            "termination_counts": counts, "plot": args.plot})
+        return 0
+    print(f"{site.name}: {fan.sizes['ray']} rays from {fan.attrs['source_depth_m']:g} m, "
+          f"{angles.min():g} to {angles.max():g} deg, out to {fan.attrs['max_range_m'] / 1000:g} km")
+    for name, n in counts.items():
+        if n:
+            print(f"  {n:5d} {name.replace('_', ' ')}")
+    print(f"  bounces per ray: surface {int(fan.surface_bounces.min())}-{int(fan.surface_bounces.max())}, "
+          f"seabed {int(fan.bottom_bounces.min())}-{int(fan.bottom_bounces.max())}")
+    if args.plot is not None:
+        print(f"Plot written to {args.plot}")
+    return 0

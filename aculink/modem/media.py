@@ -1,0 +1,231 @@
+"""What the modem needs from a channel, for either kind of channel it accepts.
+
+``simulate_link`` and ``predict_link`` take a :class:`aculink.channel.Channel` (a site's
+multipath over a passband, with a link budget or a band SNR) or a plain array of
+symbol-spaced complex taps (a discrete ISI channel such as the Proakis test channels, with
+``snr_db`` meaning Es/sigma^2, sigma^2 the noise variance per symbol-spaced sample; the taps
+are used as given, not renormalised). This module turns either into the same few things: the
+T/2 (and T/4) matched-filtered response, the noise autocorrelation at T/2, the folded SNR,
+the water-filling capacity, and a way to send a waveform through the channel with noise.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+
+import numpy as np
+
+from aculink.errors import AculinkError, check_range
+from aculink.modem.analytic import folded_snr_from_taps, water_filling
+from aculink.modem.pulses import raised_cosine_spectrum
+
+#: Raised-cosine tail kept each side of a tap-list response, symbols.
+_RC_TAIL_SYMBOLS = 10
+
+
+def _rc_pulse(t_over_t, beta):
+    x = np.asarray(t_over_t, dtype=float)
+    den = 1.0 - (2.0 * beta * x) ** 2
+    sing = np.abs(den) < 1e-10
+    out = np.sinc(x) * np.cos(np.pi * beta * x) / np.where(sing, 1.0, den)
+    return np.where(sing, np.pi / 4.0 * np.sinc(1.0 / (2.0 * beta)), out)
+
+
+def is_channel(obj) -> bool:
+    return hasattr(obj, "delay_s") and hasattr(obj, "transfer_function")
+
+
+class TapMedium:
+    """A symbol-spaced tap list with white noise at ``Es/sigma^2 = snr``."""
+
+    kind = "taps"
+
+    def __init__(self, taps, snr_db, *, doppler=0.0, carrier_hz=None):
+        h = np.atleast_1d(np.asarray(taps, dtype=complex))
+        if h.ndim != 1 or h.size < 1 or not np.all(np.isfinite(h)) or not np.any(h != 0):
+            raise AculinkError("channel taps: expected a non-empty 1-D array of finite complex gains, not all zero")
+        if snr_db is None:
+            raise AculinkError("snr_db = None: a tap-list channel needs snr_db (Es/N0, dB)")
+        self.taps = h
+        self.snr_db = check_range("snr_db", snr_db, -30.0, 80.0, unit="dB")
+        self.noise_var = 10 ** (-self.snr_db / 10)
+        self.doppler = check_range("doppler", doppler, -0.01, 0.01)
+        if self.doppler and carrier_hz is None:
+            raise AculinkError("carrier_hz = None: a Doppler time scale on a tap list needs the carrier frequency")
+        self.carrier_hz = None if carrier_hz is None else check_range("carrier_hz", carrier_hz, 0.0, None, low_open=True, unit="Hz")
+        self.snr_in_db = self.snr_db
+
+    def check_rate(self, rs, beta):
+        return None
+
+    def response(self, rs, beta, sps):
+        """Matched-filtered response at T/sps: ``q[m] = sum_k h_k rc(m/sps - k)``."""
+        n_tail = _RC_TAIL_SYMBOLS * sps
+        m = np.arange(-n_tail, (self.taps.size - 1) * sps + n_tail + 1)
+        k = np.arange(self.taps.size)
+        return _rc_pulse(m[:, None] / sps - k[None, :], beta) @ self.taps
+
+    def noise_acf(self, rs, beta, n_lags, sps=2):
+        return self.noise_var * _rc_pulse(np.arange(n_lags) / sps, beta)
+
+    def es_over_ref(self, rs):
+        return 1.0
+
+    def folded_snr(self, rs, beta, n_grid):
+        return folded_snr_from_taps(self.taps, 1.0 / self.noise_var, n_grid)
+
+    def capacity_bps(self, rs, beta, n_grid=4096):
+        bits, _ = water_filling(self.folded_snr(rs, beta, n_grid))
+        return bits * rs
+
+    def es_n0_db(self, rs, beta):
+        return self.snr_db
+
+    def propagate(self, x, sps, rs, seed):
+        """Convolve with the taps at symbol spacing, apply the Doppler time scale, add noise."""
+        h_up = np.zeros((self.taps.size - 1) * sps + 1, dtype=complex)
+        h_up[::sps] = self.taps
+        y = np.convolve(x, h_up)
+        if self.doppler:
+            from aculink.modem.frontend import time_scale
+
+            y = time_scale(y, self.doppler, rs * sps, self.carrier_hz)
+        rng = np.random.default_rng(seed)
+        # unit-energy pulses: white noise of variance sigma^2 per sample gives Es/N0 = 1/sigma^2
+        noise = (rng.standard_normal(y.size) + 1j * rng.standard_normal(y.size)) * math.sqrt(self.noise_var / 2)
+        return y + noise
+
+    def spread_s(self, rs):
+        return (self.taps.size - 1) / rs
+
+
+class ChannelMedium:
+    """A :class:`aculink.channel.Channel` with a link budget's coloured noise, or white noise
+    at a given band SNR (received power over the noise power in the channel's band B)."""
+
+    kind = "channel"
+
+    def __init__(self, channel, budget=None, snr_db=None, *, time_varying=True):
+        if channel.is_empty:
+            reason = getattr(channel, "reason", "") or "no eigenray reaches the receiver"
+            raise AculinkError(f"channel {channel.name!r} has no paths ({reason}): nothing to simulate")
+        if budget is None and snr_db is None:
+            raise AculinkError("budget = None and snr_db = None: give a link budget or snr_db (band SNR, dB)")
+        # the receiver's clock starts at the first arrival: only relative delays matter
+        self.channel = dataclasses.replace(channel, delay_s=channel.delay_s - channel.delay_s.min())
+        self.budget = budget
+        self.carrier_hz = float(channel.carrier_hz)
+        self.bandwidth_hz = float(channel.bandwidth_hz)
+        self.time_varying = bool(time_varying)
+        fc, b = self.carrier_hz, self.bandwidth_hz
+        grid = np.linspace(fc - b / 2, fc + b / 2, 513)
+        h2_band = np.abs(self.channel.transfer_function(grid).values) ** 2
+        if snr_db is not None:
+            self.snr_db = check_range("snr_db", snr_db, -30.0, 80.0, unit="dB")
+            self.source_power = 1.0
+            # band SNR = P mean|H|^2 / (N0 B): white N0 over the band
+            self.n0 = self.source_power * float(np.mean(h2_band)) / (10 ** (self.snr_db / 10) * b)
+            self.snr_in_db = self.snr_db
+        else:
+            self.snr_db = None
+            self.source_power = 10 ** (budget.source_level_db / 10)
+            self.n0 = None
+            self.snr_in_db = float(budget.snr_band_db)
+
+    def noise_psd(self, freq_hz):
+        """Noise PSD (linear, uPa^2/Hz or the white level) at passband ``freq_hz``."""
+        f = np.asarray(freq_hz, dtype=float)
+        if self.n0 is not None:
+            return np.full(f.shape, self.n0)
+        return 10 ** (np.asarray(self._noise_db(f), dtype=float) / 10)
+
+    def _noise_db(self, freq_hz):
+        # the budget's NL(f) is before the receiver's directivity index, which the sonar
+        # equation adds to the SNR: the noise the receiver sees is NL(f) - DI
+        return np.asarray(self.budget.noise_psd_db(freq_hz), dtype=float) - self.budget.directivity_index_db
+
+    def check_rate(self, rs, beta):
+        b = self.bandwidth_hz
+        if rs * (1 + beta) > b * (1 + 1e-9):
+            raise AculinkError(
+                f"symbol_rate_baud = {rs:g} Bd with rolloff {beta:g} occupies Rs(1+rolloff) = {rs * (1 + beta):g} Hz "
+                f"> bandwidth {b:g} Hz: allowed range is (0, {b / (1 + beta):g}] Bd")
+
+    def response(self, rs, beta, sps):
+        taps = self.channel.symbol_taps(rs, beta, sps).taps
+        return np.asarray(taps, dtype=complex)
+
+    def _baseband(self, rs, beta, n=2049):
+        f = np.linspace(-0.5 * rs * (1 + beta), 0.5 * rs * (1 + beta), n)
+        return f, raised_cosine_spectrum(f / rs, beta) / rs  # |G(f)|^2 of a unit-energy RRC
+
+    def noise_acf(self, rs, beta, n_lags, sps=2):
+        """``R[m] = int N(fc + f) |G(f)|^2 exp(j 2 pi f m T/sps) df`` (matched-filter output)."""
+        f, g2 = self._baseband(rs, beta)
+        n = self.noise_psd(self.carrier_hz + f) * g2
+        lag = np.arange(n_lags)[:, None] / (sps * rs)
+        return np.trapezoid(n[None, :] * np.exp(2j * np.pi * f[None, :] * lag), f, axis=1)
+
+    def es_over_ref(self, rs):
+        """Symbol energy ``P_tx T`` (the response is in pressure re 1 m per unit amplitude)."""
+        return self.source_power / rs
+
+    def folded_snr(self, rs, beta, n_grid):
+        """``gamma(f) = sum_k P_tx |G(f - k Rs)|^2 |H(fc + f - k Rs)|^2 / N(fc + f - k Rs)``."""
+        f = (np.arange(n_grid) / n_grid - 0.5) * rs
+        ks = (-1, 0, 1)
+        fa = np.concatenate([f + k * rs for k in ks])
+        g2 = raised_cosine_spectrum(fa / rs, beta) / rs
+        use = g2 > 0
+        h = np.zeros(fa.size, dtype=complex)
+        h[use] = self.channel.transfer_function(self.carrier_hz + fa[use]).values
+        dens = np.zeros(fa.size)
+        dens[use] = self.source_power * g2[use] * np.abs(h[use]) ** 2 / self.noise_psd(self.carrier_hz + fa[use])
+        return dens.reshape(len(ks), n_grid).sum(axis=0)
+
+    def capacity_bps(self, rs=None, beta=None, n_grid=1024):
+        """Water-filling capacity over the channel's band with the source power, bits/s."""
+        fc, b = self.carrier_hz, self.bandwidth_hz
+        f = fc - b / 2 + (np.arange(n_grid) + 0.5) * b / n_grid
+        h2 = np.abs(self.channel.transfer_function(f).values) ** 2
+        gamma = self.source_power * h2 / (self.noise_psd(f) * b)
+        bits, _ = water_filling(gamma)
+        return bits * b
+
+    def es_n0_db(self, rs, beta):
+        """Received Es/N0 at the strongest-arrival-free reference: P_tx T mean|H|^2 / mean N."""
+        f, g2 = self._baseband(rs, beta)
+        h2 = np.abs(self.channel.transfer_function(self.carrier_hz + f).values) ** 2
+        s = self.source_power * np.trapezoid(g2 * h2, f) / rs
+        n = np.trapezoid(g2 * self.noise_psd(self.carrier_hz + f), f)
+        return 10 * np.log10(s / n)
+
+    def propagate(self, x, sps, rs, seed):
+        from aculink.channel import apply_channel, colored_noise
+
+        fs = rs * sps
+        ss = np.random.SeedSequence(seed)
+        s_ch, s_noise = (int(s.generate_state(1)[0]) for s in ss.spawn(2))
+        amp = math.sqrt(self.source_power * sps)  # unit-energy pulses carry power 1/sps
+        y = amp * np.asarray(apply_channel(self.channel, x, fs, time_varying=self.time_varying, seed=s_ch))
+        if self.n0 is not None:
+            rng = np.random.default_rng(s_noise)
+            noise = (rng.standard_normal(y.size) + 1j * rng.standard_normal(y.size)) * math.sqrt(self.n0 * fs / 2)
+        else:
+            noise = np.asarray(colored_noise(y.size, fs, self.carrier_hz, self._noise_db, s_noise))
+        return y + noise
+
+    def spread_s(self, rs):
+        return float(self.channel.delay_s.max() - self.channel.delay_s.min())
+
+
+def make_medium(channel, budget=None, snr_db=None, *, doppler=0.0, carrier_hz=None, time_varying=True):
+    """A :class:`ChannelMedium` for a Channel, a :class:`TapMedium` for an array of taps."""
+    if is_channel(channel):
+        if doppler:
+            raise AculinkError("doppler: a Channel carries its own per-path Doppler; the doppler option is for tap lists")
+        return ChannelMedium(channel, budget, snr_db, time_varying=time_varying)
+    if budget is not None:
+        raise AculinkError("budget: a tap-list channel takes snr_db (Es/N0), not a link budget")
+    return TapMedium(channel, snr_db, doppler=doppler, carrier_hz=carrier_hz)

@@ -1,0 +1,274 @@
+"""Monte Carlo link simulation: ``simulate_link``.
+
+Frames of ``[training | payload | tail marker]`` are shaped, sent through the channel (the
+channel stage's application for a site channel, a symbol-spaced convolution for a tap list),
+noise is added, and the receiver front end and the chosen receiver recover the payload. Frames
+are run until ``max_errors`` bit errors have been counted or ``n_symbols`` payload symbols
+have been sent. Same seed, same result.
+
+References
+----------
+Clopper, C. J. and Pearson, E. S., "The use of confidence or fiducial limits illustrated in the
+case of the binomial", Biometrika 26(4), 404-413, 1934 (the exact binomial interval).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field
+
+import numpy as np
+import scipy.stats
+import xarray as xr
+
+from aculink.errors import AculinkError, check_range
+from aculink.modem.constellations import check_modulation, constellation
+from aculink.modem.frames import SYNC_SYMBOLS, frame_layout
+from aculink.modem.frontend import pulse_delay, shape, synchronise
+from aculink.modem.media import make_medium
+from aculink.modem.predict import DEFAULT_ROLLOFF, predict_link
+from aculink.modem.receivers import (check_algorithm, check_receiver, design_for, feedback_delays, pll_gains,
+                                     plan_receiver, run_frame)
+from aculink.modem.media import _rc_pulse
+
+#: Extra T/2 samples around the span in the least-squares channel estimate.
+_ESTIMATE_MARGIN = 4
+#: Outputs kept for the constellation picture.
+_KEEP_POINTS = 4000
+
+
+def clopper_pearson(errors: int, trials: int, confidence: float = 0.95) -> tuple[float, float]:
+    """Exact two-sided binomial confidence interval (Clopper and Pearson 1934)."""
+    a = 1.0 - confidence
+    lo = 0.0 if errors == 0 else float(scipy.stats.beta.ppf(a / 2, errors, trials - errors + 1))
+    hi = 1.0 if errors >= trials else float(scipy.stats.beta.ppf(1 - a / 2, errors + 1, trials - errors))
+    return lo, hi
+
+
+@dataclass(frozen=True, eq=False)
+class LinkResult:
+    """Outcome of :func:`simulate_link` (SNRs in dB, rates in bit/s).
+
+    ``snr_in_db``: band SNR (Es/N0 for a tap list); ``snr_out_db``: measured unbiased output
+    SNR of the payload decisions, ``|alpha|^2 Es / E|z - alpha d|^2`` with ``alpha`` the
+    regression of the outputs on the sent symbols; ``snr_predicted_db`` and
+    ``ber_predicted`` from :func:`predict_link` with the same spans.
+    """
+
+    ber: float
+    ber_low: float
+    ber_high: float
+    bit_errors: int
+    bits: int
+    symbol_errors: int
+    symbols: int
+    frames: int
+    snr_in_db: float
+    es_n0_db: float
+    snr_out_db: float
+    snr_predicted_db: float
+    ber_predicted: float
+    training_fraction: float
+    net_bit_rate_bps: float
+    symbol_rate_baud: float
+    modulation: str
+    receiver: str
+    algorithm: str
+    rolloff: float
+    n_ff: int
+    n_fb: int
+    n_training: int
+    n_payload: int
+    doppler_estimate: float
+    restarts: int
+    learning_curve: xr.DataArray = field(repr=False)
+    constellation: np.ndarray = field(repr=False)
+    ff_taps: np.ndarray = field(repr=False)
+    fb_taps: np.ndarray = field(repr=False)
+    fb_delays: np.ndarray = field(repr=False)
+
+    def to_dict(self) -> dict:
+        """Scalar fields, for JSON."""
+        keys = ("ber", "ber_low", "ber_high", "bit_errors", "bits", "symbol_errors", "symbols", "frames",
+                "snr_in_db", "es_n0_db", "snr_out_db", "snr_predicted_db", "ber_predicted", "training_fraction",
+                "net_bit_rate_bps", "symbol_rate_baud", "modulation", "receiver", "algorithm", "rolloff",
+                "n_ff", "n_fb", "n_training", "n_payload", "doppler_estimate", "restarts")
+        return {k: getattr(self, k) for k in keys}
+
+
+def _count_arg(name, value, low):
+    if isinstance(value, bool) or int(value) != value or int(value) < low:
+        raise AculinkError(f"{name} = {value!r}: expected a whole number >= {low}")
+    return int(value)
+
+
+def simulate_link(channel, *, symbol_rate_baud, modulation, receiver, budget=None, snr_db=None,
+                  rolloff=None, n_symbols=20000, max_errors=200, seed=0, algorithm="rls",
+                  samples_per_symbol=4, n_training=None, n_payload=None, n_ff=None, n_fb=None,
+                  sparse=False, n_sparse=None, forgetting=None, step_size=None, pll_bandwidth=0.002,
+                  pll_damping=1 / math.sqrt(2), doppler=0.0, carrier_hz=None, time_varying=True,
+                  track_doppler=True) -> LinkResult:
+    """Simulate a single-carrier PSK/QAM link and count bit errors.
+
+    Parameters
+    ----------
+    channel : Channel or array of complex
+        A site channel, or symbol-spaced taps (a discrete ISI channel used as given).
+    symbol_rate_baud : float
+        Rs.
+    modulation : str
+        ``bpsk qpsk 8psk 16qam 64qam`` (Gray mapped, unit average energy).
+    receiver : str
+        ``none linear dfe mmse-dfe``.
+    budget : LinkBudget, optional
+        Source level and coloured noise (Channel only).
+    snr_db : float, optional
+        Band SNR replacing the budget's (white noise) for a Channel; Es/sigma^2 for taps.
+    rolloff : float, optional
+        RRC roll-off (default 0.25).
+    n_symbols : int
+        Largest number of payload symbols to send.
+    max_errors : int
+        Stop after this many bit errors.
+    seed : int
+        Seeds bits, training, noise and channel variation.
+    algorithm : {"rls", "nlms"}
+        Adaptation of ``linear`` and ``dfe``.
+    samples_per_symbol : int
+        Transmit/channel oversampling (even, >= 2).
+    n_training, n_payload : int, optional
+        Frame overrides (training >= the adapted taps and the 64-symbol preamble).
+    n_ff, n_fb : int, optional
+        Feedforward (T/2) and feedback taps; default from the channel's multipath spread.
+    sparse, n_sparse : bool, int
+        Feedback taps only on the ``n_sparse`` delays where past symbols leak most energy.
+    forgetting, step_size : float, optional
+        RLS forgetting factor, NLMS step in (0, 2).
+    pll_bandwidth, pll_damping : float
+        Loop noise bandwidth B_n T and damping of the second-order PLL. The default 0.002 is
+        narrow because the RLS taps also turn with the carrier phase: with B_n T = 0.01 the
+        loop and the taps chased each other on the Proakis channel b (our own simulation).
+    doppler, carrier_hz : float
+        Common Doppler time scale ``a`` and carrier, tap lists only (a Channel has its own).
+    time_varying : bool
+        Let a Channel vary in time (surface motion, path Doppler).
+    track_doppler : bool
+        Estimate and undo the time scale in the front end.
+
+    Returns
+    -------
+    LinkResult
+
+    Raises
+    ------
+    AculinkError
+        Rs (1 + rolloff) above the band, unknown modulation/receiver/algorithm (closest name
+        suggested), tap counts below 1, training shorter than the taps, bad counts.
+    """
+    mod = check_modulation(modulation)
+    receiver = check_receiver(receiver)
+    algorithm = check_algorithm(algorithm)
+    rs = check_range("symbol_rate_baud", symbol_rate_baud, 0.0, None, low_open=True, unit="Bd")
+    beta = DEFAULT_ROLLOFF if rolloff is None else check_range("rolloff", rolloff, 0.0, 1.0, low_open=True)
+    n_symbols = _count_arg("n_symbols", n_symbols, 1)
+    max_errors = _count_arg("max_errors", max_errors, 1)
+    sps = _count_arg("samples_per_symbol", samples_per_symbol, 2)
+    if sps % 2:
+        raise AculinkError(f"samples_per_symbol = {sps}: must be even (the equalizers work at T/2)")
+    medium = make_medium(channel, budget, snr_db, doppler=doppler, carrier_hz=carrier_hz, time_varying=time_varying)
+    medium.check_rate(rs, beta)
+    q_known = medium.response(rs, beta, 2)
+    plan = plan_receiver(q_known, receiver, algorithm=algorithm, n_ff=n_ff, n_fb=n_fb, sparse=sparse,
+                         n_sparse=n_sparse, forgetting=forgetting, step=step_size)
+    layout = frame_layout(plan.n_adapted, plan.spread_symbols, algorithm=algorithm, receiver=receiver,
+                          n_training=n_training, n_payload=n_payload)
+    pred = predict_link(channel, budget, rs, mod, receiver, rolloff=beta, snr_db=snr_db, algorithm=algorithm,
+                        n_ff=n_ff, n_fb=n_fb, sparse=sparse, n_sparse=n_sparse, n_training=n_training,
+                        n_payload=n_payload, forgetting=forgetting, step_size=step_size,
+                        time_varying=time_varying)
+    pll = pll_gains(pll_bandwidth, pll_damping)
+    const = constellation(mod)
+    pts = const.points
+    k = const.bits_per_symbol
+    m_known = int(np.argmax(np.abs(q_known)))
+    n_pre = (m_known) + _ESTIMATE_MARGIN if receiver != "none" else 2
+    n_post = (q_known.size - 1 - m_known) + _ESTIMATE_MARGIN if receiver != "none" else 2
+    n_pre = min(n_pre, 2 * plan.pre_symbols + 2 * 10 + _ESTIMATE_MARGIN)
+    n_post = min(n_post, 2 * plan.post_symbols + 2 * 10 + _ESTIMATE_MARGIN)
+    spread_samples = int(math.ceil(medium.spread_s(rs) * rs * sps))
+    carrier = getattr(medium, "carrier_hz", None) or 1.0
+
+    n_frame = layout.n_train + layout.n_payload
+    bit_err = bits = sym_err = syms = frames = restarts = 0
+    s_zd = 0j
+    s_dd = s_zz = 0.0
+    curve = np.zeros(n_frame)
+    kept = []
+    last = None
+    dopp = []
+    root = np.random.SeedSequence(int(seed))
+    while syms < n_symbols and bit_err < max_errors:
+        fs_seq = root.spawn(1)[0]
+        s_bits, s_ch, s_lead = (int(s.generate_state(1)[0]) for s in fs_seq.spawn(3))
+        rng = np.random.default_rng(s_bits)
+        labels = rng.integers(0, const.order, layout.n_sent)
+        symbols = pts[labels]
+        tail = symbols[n_frame:]
+        lead = int(np.random.default_rng(s_lead).integers(4 * sps, 12 * sps))
+        x = np.concatenate([np.zeros(lead, complex), shape(symbols, beta, sps),
+                            np.zeros(spread_samples + 4 * sps, complex)])
+        y = medium.propagate(x, sps, rs, s_ch)
+        sync = synchronise(y, rolloff=beta, sps=sps, sync_head=symbols[:SYNC_SYMBOLS], sync_tail=tail,
+                           training=symbols[:layout.n_train], n_frame_symbols=n_frame, n_pre=n_pre,
+                           n_post=n_post, sample_rate_hz=rs * sps, carrier_hz=carrier,
+                           track_doppler=track_doppler)
+        dopp.append(sync.doppler)
+        design = None
+        fbd = np.arange(1, plan.n_fb + 1)
+        if receiver != "none":
+            acf = sync.noise_var * _rc_pulse(np.arange(plan.n_ff) / 2, beta)
+            design = design_for(plan, sync.q, sync.q_peak, acf)
+            if plan.sparse:
+                fbd = feedback_delays(sync.q, plan.n_ff, design.start, plan.n_fb, plan.n_sparse)
+                design = design_for(plan, sync.q, sync.q_peak, acf, fb_delays=fbd)
+            start0 = sync.start - sync.q_peak + design.start
+        else:
+            start0 = sync.start
+        out = run_frame(plan, sync.stream, start0, n_frame, labels[:layout.n_train], pts,
+                        design=design, fb_delays=fbd, pll=pll)
+        restarts += out.restarts
+        pay = slice(layout.n_train, n_frame)
+        dec = out.decisions[pay]
+        sent = labels[pay]
+        bit_err += int(np.count_nonzero(const.bits_of(dec) != const.bits_of(sent)))
+        bits += sent.size * k
+        sym_err += int(np.count_nonzero(dec != sent))
+        syms += sent.size
+        z = out.z[pay]
+        d = pts[sent]
+        s_zd += np.vdot(d, z)
+        s_dd += float(np.vdot(d, d).real)
+        s_zz += float(np.vdot(z, z).real)
+        curve += out.err2
+        frames += 1
+        kept.append(z[-_KEEP_POINTS:])
+        last = out
+    alpha = s_zd / s_dd
+    resid = s_zz - 2 * (np.conj(alpha) * s_zd).real + abs(alpha) ** 2 * s_dd
+    snr_meas = abs(alpha) ** 2 * s_dd / max(resid, 1e-300)
+    lo, hi = clopper_pearson(bit_err, bits)
+    curve = xr.DataArray(curve / frames, dims="symbol",
+                         coords={"symbol": ("symbol", np.arange(n_frame), {"long_name": "symbol index in the frame", "units": "1"})},
+                         name="squared_error",
+                         attrs={"units": "1", "long_name": "squared error |d - z|^2 (training, then decision directed), mean over frames",
+                                "n_training": layout.n_train})
+    pts_kept = np.concatenate(kept)[-_KEEP_POINTS:]
+    return LinkResult(
+        ber=bit_err / bits, ber_low=lo, ber_high=hi, bit_errors=bit_err, bits=bits, symbol_errors=sym_err,
+        symbols=syms, frames=frames, snr_in_db=float(medium.snr_in_db), es_n0_db=pred.es_n0_db,
+        snr_out_db=10 * math.log10(snr_meas), snr_predicted_db=pred.snr_out_db, ber_predicted=pred.ber_predicted,
+        training_fraction=layout.training_fraction, net_bit_rate_bps=rs * k * layout.payload_fraction,
+        symbol_rate_baud=rs, modulation=mod, receiver=receiver, algorithm=algorithm if receiver in ("linear", "dfe") else "none",
+        rolloff=beta, n_ff=plan.n_ff, n_fb=int(last.fb_delays.size), n_training=layout.n_train,
+        n_payload=layout.n_payload, doppler_estimate=float(np.median(dopp)), restarts=restarts,
+        learning_curve=curve, constellation=pts_kept, ff_taps=last.ff, fb_taps=last.fb, fb_delays=last.fb_delays)
