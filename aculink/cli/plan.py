@@ -24,7 +24,7 @@ def register(subparsers) -> None:
     p.add_argument("--depth-m", type=float, default=None, metavar="Z",
                    help="receiver depth, m (default: the site's receiver depth)")
     p.add_argument("--receiver", default="all", metavar="NAME",
-                   help="receiver to plan for: none, linear, dfe, mmse-dfe or all (default all)")
+                   help="receiver to plan for: none, linear, dfe, or all of these (default); mmse-dfe (known-channel bound) when named")
     p.add_argument("--target-ber", type=float, default=None, help="target bit error rate (default: the site's)")
     p.add_argument("--margin-db", type=float, default=None, help="SNR margin to keep, dB (default: the site's)")
     p.add_argument("--verify", action="store_true",

@@ -26,7 +26,7 @@ def register(subparsers) -> None:
     where.add_argument("--scheduler", default=None, metavar="ADDRESS",
                        help="run on an existing Dask cluster, e.g. tcp://10.0.0.5:8786")
     p.add_argument("--receiver", default="all", metavar="NAME",
-                   help="receiver to plan for: none, linear, dfe, mmse-dfe or all (default all)")
+                   help="receiver to plan for: none, linear, dfe, or all of these (default); mmse-dfe (known-channel bound) when named")
     p.add_argument("--target-ber", type=float, default=None, help="target bit error rate (default: the site's)")
     p.add_argument("--margin-db", type=float, default=None, help="SNR margin to keep, dB (default: the site's)")
     p.add_argument("--chunk-ranges", type=int, default=None, metavar="N",

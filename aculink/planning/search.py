@@ -30,6 +30,10 @@ import numpy as np
 
 from aculink.errors import AculinkError, check_range, closest
 
+#: What "all" receivers means: the ones a modem really runs (adaptive, trained). The modem
+#: stage's "mmse-dfe" is the design on a perfectly known channel, a bound rather than a
+#: receiver, so it is planned for only when named.
+PRACTICAL_RECEIVERS = ("none", "linear", "dfe")
 #: Default number of rungs in the symbol-rate ladder (fastest rate, then halvings).
 DEFAULT_LADDER_STEPS = 6
 #: Ratio between successive rungs of the ladder.
@@ -177,7 +181,7 @@ def modem_required_snr_db(modulations, target_ber) -> np.ndarray:
     return np.array([10.0 * math.log10(es_n0_for_ber(m, target_ber)) for m in modulations])
 
 
-def evaluate_block(site, ranges_m, depths_m, grid: CandidateGrid, target_ber) -> dict:
+def evaluate_block(site, ranges_m, depths_m, grid: CandidateGrid, target_ber, margin_db) -> dict:
     """Analytic predictions of every candidate at a block of receivers sharing one ray fan.
 
     Parameters
@@ -188,18 +192,19 @@ def evaluate_block(site, ranges_m, depths_m, grid: CandidateGrid, target_ber) ->
         Receiver ranges and depths, m; every combination is a receiver (one
         ``find_arrivals`` call serves them all).
     grid : CandidateGrid
-    target_ber : float
+    target_ber, margin_db : float
+        What makes a candidate workable (used to skip candidates that cannot win).
 
     Returns
     -------
     dict of ndarray
         Per position (R, Z): ``snr_band_db``, ``tl_db``, ``spread_90_s``, ``error`` (str,
         empty when fine); per candidate (R, Z, K, S, M): ``snr_out_db``, ``ber_predicted``,
-        ``net_bit_rate_bps``; per modulation (M,): ``snr_required_db``. Positions below the
-        seabed get an error message and NaN.
+        ``net_bit_rate_bps`` (NaN where skipped, see :func:`predict_point`); per modulation
+        (M,): ``snr_required_db``. Positions below the seabed get an error message and NaN;
+        a position no path reaches has NaN predictions (so no workable rate) and no error.
     """
     from aculink.channel import Channel, link_budget
-    from aculink.modem import predict_link
     from aculink.propagation import find_arrivals
 
     ranges = np.atleast_1d(np.asarray(ranges_m, dtype=float))
@@ -228,18 +233,45 @@ def evaluate_block(site, ranges_m, depths_m, grid: CandidateGrid, target_ber) ->
                 out["snr_band_db"][i, j] = float(budget.snr_band_db)
                 out["tl_db"][i, j] = float(budget.tl_db)
                 out["spread_90_s"][i, j] = float(stats["spread_90_s"])
-                for a, rx in enumerate(grid.receivers):
-                    for b, rs in enumerate(grid.symbol_rates_baud):
-                        for c, mod in enumerate(grid.modulations):
-                            p = predict_link(channel, budget, rs, mod, rx, rolloff=rolloff)
-                            out["snr_out_db"][i, j, a, b, c] = float(p.snr_out_db)
-                            out["ber_predicted"][i, j, a, b, c] = float(p.ber_predicted)
-                            out["net_bit_rate_bps"][i, j, a, b, c] = float(p.net_bit_rate_bps)
+                if not channel.is_empty:
+                    predict_point(out, (i, j), channel, budget, grid, rolloff, target_ber, margin_db)
             except AculinkError as exc:
                 out["error"][i, j] = one_line(exc)
             except (ValueError, ArithmeticError, np.linalg.LinAlgError) as exc:
                 out["error"][i, j] = one_line(exc)
     return out
+
+
+def predict_point(out, at, channel, budget, grid, rolloff, target_ber, margin_db) -> None:
+    """Fill the predictions of one receiver position, skipping candidates that cannot win.
+
+    Per receiver, symbol rates are tried fastest first; a symbol rate whose best possible net
+    bit rate (every symbol carrying the most bits any candidate modulation carries, no
+    training) does not exceed the receiver's best workable rate found so far is skipped, its
+    entries left NaN. The skipped candidates could never be chosen, so the workable rate per
+    receiver (and overall) is exactly that of the full search; the modem stage's estimate
+    costs tens of milliseconds per (receiver, symbol rate), which makes this worth doing.
+    """
+    from aculink.modem import predict_link
+    from aculink.modem.constellations import MODULATIONS as BITS
+
+    need = out["snr_required_db"]
+    max_bits = max(BITS[m] for m in grid.modulations)
+    order = np.argsort(-np.asarray(grid.symbol_rates_baud), kind="stable")
+    for a, rx in enumerate(grid.receivers):
+        best = 0.0
+        for b in order:
+            rs = grid.symbol_rates_baud[b]
+            if rs * max_bits <= best:
+                continue
+            for c, mod in enumerate(grid.modulations):
+                p = predict_link(channel, budget, rs, mod, rx, rolloff=rolloff)
+                snr, ber, rate = float(p.snr_out_db), float(p.ber_predicted), float(p.net_bit_rate_bps)
+                out["snr_out_db"][at + (a, b, c)] = snr
+                out["ber_predicted"][at + (a, b, c)] = ber
+                out["net_bit_rate_bps"][at + (a, b, c)] = rate
+                if ber <= target_ber and snr - need[c] >= margin_db and rate > best:
+                    best = rate
 
 
 #: Frequencies across the modem band at which the arrivals are evaluated (as the channel stage's
@@ -268,7 +300,7 @@ def empty_block(n_ranges: int, n_depths: int, grid: CandidateGrid) -> dict:
     return out
 
 
-def evaluate_safely(evaluate, site, ranges_m, depths_m, grid, target_ber) -> dict:
+def evaluate_safely(evaluate, site, ranges_m, depths_m, grid, target_ber, margin_db) -> dict:
     """Run an evaluator on a block; if the block fails, retry each range alone, then each point.
 
     A failing position is recorded with its one-line error and NaN values; it never takes the
@@ -277,7 +309,7 @@ def evaluate_safely(evaluate, site, ranges_m, depths_m, grid, target_ber) -> dic
     ranges = np.atleast_1d(np.asarray(ranges_m, dtype=float))
     depths = np.atleast_1d(np.asarray(depths_m, dtype=float))
     try:
-        return _checked(evaluate(site, ranges, depths, grid, target_ber), len(ranges), len(depths), grid)
+        return _checked(evaluate(site, ranges, depths, grid, target_ber, margin_db), len(ranges), len(depths), grid)
     except Exception as exc:  # noqa: BLE001 - recorded per point, the sweep goes on
         if ranges.size * depths.size == 1:
             out = empty_block(1, 1, grid)
@@ -288,7 +320,7 @@ def evaluate_safely(evaluate, site, ranges_m, depths_m, grid, target_ber) -> dic
              else [(0, j) for j in range(len(depths))])
     for i, j in parts:
         jj = np.arange(len(depths))[j] if isinstance(j, slice) else np.array([j])
-        sub = evaluate_safely(evaluate, site, ranges[[i]], depths[jj], grid, target_ber)
+        sub = evaluate_safely(evaluate, site, ranges[[i]], depths[jj], grid, target_ber, margin_db)
         for key in POINT_FIELDS + CANDIDATE_FIELDS + ("error",):
             out[key][i, jj] = sub[key][0]
         if np.all(np.isnan(out["snr_required_db"])):

@@ -120,7 +120,8 @@ def compute_chunk(job: SweepJob, chunk: Chunk) -> dict:
     if job.winds_mps is not None:
         site = search.site_with_wind(site, float(job.winds_mps[chunk.wind_index]))
     ranges = job.ranges_m[chunk.range_start:chunk.range_stop]
-    block = search.evaluate_safely(job.evaluate, site, ranges, job.depths_m, job.grid, job.target_ber)
+    block = search.evaluate_safely(job.evaluate, site, ranges, job.depths_m, job.grid, job.target_ber,
+                                   job.margin_db)
     return search.summarise_block(block, job.grid, target_ber=job.target_ber, margin_db=job.margin_db)
 
 
@@ -287,7 +288,10 @@ def candidate_grid(site, *, receivers="all", modulations=None, symbol_rates_baud
         from aculink.modem import MODULATIONS, RECEIVERS
 
         known_mods, known_rx = tuple(MODULATIONS), tuple(RECEIVERS)
-    rx = search.resolve_receivers(receivers, known_rx)
+    if isinstance(receivers, str) and receivers == "all" and not explicit:
+        rx = tuple(r for r in known_rx if r in search.PRACTICAL_RECEIVERS)
+    else:
+        rx = search.resolve_receivers(receivers, known_rx)
     mods = known_mods if modulations is None else search.resolve_receivers(modulations, known_mods)
     if symbol_rates_baud is None:
         rates = search.candidate_symbol_rates(site.modem.bandwidth_hz, site.modem.rolloff)

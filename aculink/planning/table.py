@@ -77,7 +77,7 @@ def plan_rates(site, ranges_m, *, depth_m=None, receivers="all", target_ber=None
     md = check_range("margin_db", site.modem.margin_db if margin_db is None else margin_db, 0.0, 60.0,
                      unit="dB")
     evaluate = search.evaluate_block if evaluate is None else evaluate
-    block = search.evaluate_safely(evaluate, site, ranges, depths, grid, tb)
+    block = search.evaluate_safely(evaluate, site, ranges, depths, grid, tb, md)
     summary = search.summarise_block(block, grid, target_ber=tb, margin_db=md)
     attrs = {"site_name": site.name, "site_text": getattr(site, "text", "") or "",
              "target_ber": tb, "margin_db": md, "receiver_depth_m": z,

@@ -63,7 +63,7 @@ import math
 import numba as nb
 import numpy as np
 
-from aculink.site._profile_kernels import evaluate
+from aculink.site._profile_kernels import evaluate, locate
 
 #: Columns of a crossing record (the ray state where it crosses a receiver range).
 R_Z, R_T, R_XI, R_ZETA, R_C, R_DX, R_DZ, R_DXI, R_DZETA, R_S = 0, 1, 2, 3, 4, 5, 6, 7, 8, 9
@@ -80,14 +80,28 @@ END_STEPS = 3  # step budget used up
 _EV_NONE, _EV_SURFACE, _EV_BOTTOM, _EV_RANGE, _EV_TURN = 0, 1, 2, 3, 4
 _NEWTON_ITERATIONS = 4
 _LAND_TOL_M = 1e-10
-# a ray stepped onto a knot is put this far past it, on the side it is heading to
-_KNOT_NUDGE_M = 1e-9
+# a ray this close (along its path) to the knot it is heading to is taken to be on it: a step that
+# aimed at a knot ends within about 1e-5 m of it, and straddling it by so little costs nothing
+_KNOT_MIN_STEP_M = 1e-3
 
 
 @nb.njit(cache=True, inline="always", error_model="numpy")
-def _rhs(z, zeta, dz, dzeta, xi, dxi, knots, coef, hint):
-    """Right-hand side of the ray and variational equations at one state."""
-    c, cz, czz, hint = evaluate(z, knots, coef, hint)
+def _eval_piece(z, knots, coef, i):
+    """c, dc/dz, d2c/dz2 from profile piece ``i`` (its cubic, extended if z is a hair outside)."""
+    d = z - knots[i]
+    a1 = coef[i, 1]
+    a2 = coef[i, 2]
+    a3 = coef[i, 3]
+    c = coef[i, 0] + d * (a1 + d * (a2 + d * a3))
+    dc = a1 + d * (2.0 * a2 + d * 3.0 * a3)
+    d2c = 2.0 * a2 + 6.0 * a3 * d
+    return c, dc, d2c
+
+
+@nb.njit(cache=True, inline="always", error_model="numpy")
+def _rhs(z, zeta, dz, dzeta, xi, dxi, knots, coef, piece):
+    """Right-hand side of the ray and variational equations at one state (profile piece fixed)."""
+    c, cz, czz = _eval_piece(z, knots, coef, piece)
     inv = 1.0 / c
     fx = c * xi
     fz = c * zeta
@@ -96,20 +110,21 @@ def _rhs(z, zeta, dz, dzeta, xi, dxi, knots, coef, hint):
     fdz = cz * dz * zeta + c * dzeta
     fdzeta = -(czz - 2.0 * cz * cz * inv) * inv * inv * dz
     fdt = -cz * inv * inv * dz
-    return fx, fz, fzeta, inv, fdx, fdz, fdzeta, fdt, c, cz, hint
+    return fx, fz, fzeta, inv, fdx, fdz, fdzeta, fdt, c, cz
 
 
 @nb.njit(cache=True, inline="always", error_model="numpy")
 def _rk4(x, z, zeta, t, dx, dz, dzeta, dt, xi, dxi, h, k1x, k1z, k1e, k1t, k1a, k1b, k1c, k1d, knots, coef,
-         hint):
-    """One classical RK4 step of length h (arc length, m), given the first stage ``k1``."""
+         piece):
+    """One classical RK4 step of length h (arc length, m), given the first stage ``k1``; every stage
+    uses profile piece ``piece``, the one the step lies in."""
     hh = 0.5 * h
-    k2x, k2z, k2e, k2t, k2a, k2b, k2c, k2d, _, _, hint = _rhs(z + hh * k1z, zeta + hh * k1e, dz + hh * k1b,
-                                                             dzeta + hh * k1c, xi, dxi, knots, coef, hint)
-    k3x, k3z, k3e, k3t, k3a, k3b, k3c, k3d, _, _, hint = _rhs(z + hh * k2z, zeta + hh * k2e, dz + hh * k2b,
-                                                             dzeta + hh * k2c, xi, dxi, knots, coef, hint)
-    k4x, k4z, k4e, k4t, k4a, k4b, k4c, k4d, _, _, hint = _rhs(z + h * k3z, zeta + h * k3e, dz + h * k3b,
-                                                             dzeta + h * k3c, xi, dxi, knots, coef, hint)
+    k2x, k2z, k2e, k2t, k2a, k2b, k2c, k2d, _, _ = _rhs(z + hh * k1z, zeta + hh * k1e, dz + hh * k1b,
+                                                             dzeta + hh * k1c, xi, dxi, knots, coef, piece)
+    k3x, k3z, k3e, k3t, k3a, k3b, k3c, k3d, _, _ = _rhs(z + hh * k2z, zeta + hh * k2e, dz + hh * k2b,
+                                                             dzeta + hh * k2c, xi, dxi, knots, coef, piece)
+    k4x, k4z, k4e, k4t, k4a, k4b, k4c, k4d, _, _ = _rhs(z + h * k3z, zeta + h * k3e, dz + h * k3b,
+                                                             dzeta + h * k3c, xi, dxi, knots, coef, piece)
     w = h / 6.0
     x1 = x + w * (k1x + 2.0 * (k2x + k3x) + k4x)
     z1 = z + w * (k1z + 2.0 * (k2z + k3z) + k4z)
@@ -119,7 +134,7 @@ def _rk4(x, z, zeta, t, dx, dz, dzeta, dt, xi, dxi, h, k1x, k1z, k1e, k1t, k1a, 
     b1 = dz + w * (k1b + 2.0 * (k2b + k3b) + k4b)
     c1 = dzeta + w * (k1c + 2.0 * (k2c + k3c) + k4c)
     d1 = dt + w * (k1d + 2.0 * (k2d + k3d) + k4d)
-    return x1, z1, e1, t1, a1, b1, c1, d1, hint
+    return x1, z1, e1, t1, a1, b1, c1, d1
 
 
 @nb.njit(cache=True, inline="always", error_model="numpy")
@@ -248,32 +263,42 @@ def trace_ray(theta0, zs, knots, coef, bed_r, bed_z, bed_slope, bt_step, bt_re, 
             x_ev = rec_r[jrec]
         if seg + 1 < n_seg and bed_r[seg + 1] < x_ev:
             x_ev = bed_r[seg + 1]
-        k1x, k1z, k1e, k1t, k1a, k1b, k1c, k1d, cs, czs, hint = _rhs(z, zeta, dz, dzeta, xi, dxi, knots, coef,
-                                                                     hint)
-        # shorten the step to end on the next profile knot, so that every RK4 step stays inside one
-        # smooth cubic piece (d2c/dz2 jumps at knots would cost the scheme its order); the quadratic
-        # prediction of z(h) lands within about 1e-7 m of the knot
-        hstep = ds
-        knot_dir = 0
-        piece = hint
-        if k1z < 0.0 and z <= knots[piece] and piece > 0:
-            piece -= 1
-        b2 = 0.5 * k1e * cs * cs * cs * xi * xi  # (d2z/ds2) / 2 = -c_z c xi^2 / 2
-        if piece + 1 < n_knots:
-            zb_hi = knots[piece + 1]
-            if 0.0 < zb_hi < z_knot_max and (k1z > 0.0 or b2 > 0.0):
-                hk = _first_root(k1z, b2, z - zb_hi, hstep)
-                if hk > 0.0:
-                    hstep = hk
-                    knot_dir = 1
-            zb_lo = knots[piece]
-            if 0.0 < zb_lo < z_knot_max and (k1z < 0.0 or b2 < 0.0):
-                hk = _first_root(k1z, b2, z - zb_lo, hstep)
-                if hk > 0.0:
-                    hstep = hk
-                    knot_dir = -1
-        x1, z1, e1, t1, a1, b1, c1, d1, h1 = _rk4(x, z, zeta, t, dx, dz, dzeta, dt, xi, dxi, hstep, k1x, k1z, k1e,
-                                                  k1t, k1a, k1b, k1c, k1d, knots, coef, hint)
+        # The step stays inside one smooth cubic piece of the profile: it is shortened to end on the
+        # next knot (d2c/dz2 jumps there, which would cost RK4 its order), found from the quadratic
+        # prediction of z(h); a ray within _KNOT_MIN_STEP_M of the knot it is heading to moves on to
+        # the next piece.
+        piece = locate(z, knots, hint)
+        if piece > 0 and z <= knots[piece] and zeta < 0.0:
+            piece -= 1  # on a knot, heading up: the piece above
+        for it in range(3):
+            k1x, k1z, k1e, k1t, k1a, k1b, k1c, k1d, cs, czs = _rhs(z, zeta, dz, dzeta, xi, dxi, knots, coef,
+                                                                   piece)
+            b2 = 0.5 * k1e * cs * cs * cs * xi * xi  # (d2z/ds2) / 2 = -c_z c xi^2 / 2
+            h_hi = -1.0
+            h_lo = -1.0
+            # a knot the ray is a hair past (it came from there) is not ahead of it
+            if piece + 2 < n_knots and z < knots[piece + 1] < z_knot_max and (k1z > 0.0 or b2 > 0.0):
+                h_hi = _first_root(k1z, b2, z - knots[piece + 1], ds)
+            if piece > 0 and 0.0 < knots[piece] < z and (k1z < 0.0 or b2 < 0.0):
+                h_lo = _first_root(k1z, b2, z - knots[piece], ds)
+            move = 0
+            hstep = ds
+            if h_hi > 0.0 and (h_lo <= 0.0 or h_hi <= h_lo):
+                if h_hi > _KNOT_MIN_STEP_M:
+                    hstep = h_hi
+                else:
+                    move = 1
+            elif h_lo > 0.0:
+                if h_lo > _KNOT_MIN_STEP_M:
+                    hstep = h_lo
+                else:
+                    move = -1
+            if move == 0 or it == 2:
+                break
+            piece += move
+        hint = piece
+        x1, z1, e1, t1, a1, b1, c1, d1 = _rk4(x, z, zeta, t, dx, dz, dzeta, dt, xi, dxi, hstep, k1x, k1z, k1e,
+                                                  k1t, k1a, k1b, k1c, k1d, knots, coef, piece)
         kind = _EV_NONE
         h = hstep
         # pick the event with the shortest tangent-predicted distance
@@ -305,7 +330,6 @@ def trace_ray(theta0, zs, knots, coef, bed_r, bed_z, bed_slope, bt_step, bt_re, 
                 best = hp
                 kind = _EV_TURN
         if kind != _EV_NONE:
-            knot_dir = 0
             # land on the event: safeguarded Newton on the step length inside [0, hstep]
             if kind == _EV_SURFACE:
                 inside = 1.0
@@ -319,8 +343,8 @@ def trace_ray(theta0, zs, knots, coef, bed_r, bed_z, bed_slope, bt_step, bt_re, 
             tol = _LAND_TOL_M if kind != _EV_TURN else _LAND_TOL_M * 1e-6
             landed = False
             for _ in range(_NEWTON_ITERATIONS):
-                x1, z1, e1, t1, a1, b1, c1, d1, h1 = _rk4(x, z, zeta, t, dx, dz, dzeta, dt, xi, dxi, h, k1x, k1z,
-                                                          k1e, k1t, k1a, k1b, k1c, k1d, knots, coef, hint)
+                x1, z1, e1, t1, a1, b1, c1, d1 = _rk4(x, z, zeta, t, dx, dz, dzeta, dt, xi, dxi, h, k1x, k1z,
+                                                          k1e, k1t, k1a, k1b, k1c, k1d, knots, coef, piece)
                 g = _event_value(kind, x1, z1, e1, bz0, bsl, bx0, x_ev)
                 if abs(g) < tol:
                     landed = True
@@ -329,14 +353,14 @@ def trace_ray(theta0, zs, knots, coef, bed_r, bed_z, bed_slope, bt_step, bt_re, 
                     lo = h
                 else:
                     hi = h
-                r = _event_rate(kind, z1, e1, xi, bsl, knots, coef, h1)
+                r = _event_rate(kind, z1, e1, xi, bsl, knots, coef, piece)
                 hn = h - g / r if r != 0.0 else 0.5 * (lo + hi)
                 if not (lo < hn < hi):
                     hn = 0.5 * (lo + hi)
                 h = hn
             if not landed:
-                x1, z1, e1, t1, a1, b1, c1, d1, h1 = _rk4(x, z, zeta, t, dx, dz, dzeta, dt, xi, dxi, h, k1x, k1z,
-                                                          k1e, k1t, k1a, k1b, k1c, k1d, knots, coef, hint)
+                x1, z1, e1, t1, a1, b1, c1, d1 = _rk4(x, z, zeta, t, dx, dz, dzeta, dt, xi, dxi, h, k1x, k1z,
+                                                          k1e, k1t, k1a, k1b, k1c, k1d, knots, coef, piece)
         # absorption and path length per depth bin, at the step midpoint depth
         zm = 0.5 * (z + z1)
         if n_ab > 0:
@@ -356,12 +380,7 @@ def trace_ray(theta0, zs, knots, coef, bed_r, bed_z, bed_slope, bt_step, bt_re, 
         dz = b1
         dzeta = c1
         dt = d1
-        hint = h1
         s += h
-        if knot_dir == 1:
-            z = knots[piece + 1] + _KNOT_NUDGE_M
-        elif knot_dir == -1:
-            z = knots[piece] - _KNOT_NUDGE_M
         if kind == _EV_SURFACE:
             z = 0.0
         elif kind == _EV_BOTTOM:

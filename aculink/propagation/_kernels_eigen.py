@@ -11,8 +11,9 @@ A fan traced once records every ray's state where it crosses each receiver range
 
 Each candidate is refined by re-shooting single rays to range j only: Newton steps on the launch
 angle using the dynamic-ray derivative dz/dtheta0, kept inside the bracket (bisection when a Newton
-step would leave it), until the depth miss at the receiver range is below the tolerance. A candidate
-whose re-shot ray changes history or stops short is dropped.
+step would leave it), until the depth miss at the receiver range is below the tolerance. A shot of
+another history (or one that stops short) shrinks the bracket from the far side; a candidate whose
+bracket closes without convergence is dropped.
 """
 
 import numba as nb
@@ -20,8 +21,11 @@ import numpy as np
 
 from aculink.propagation import _kernels as _k
 
-#: Refinement iterations before a candidate is given up.
+#: Refinement shots before a candidate is given up (straddles, branch edges).
 MAX_ITERATIONS = 40
+EDGE_ITERATIONS = 16
+#: Branch-edge predictions are followed this many gap widths from the edge ray.
+EDGE_REACH = 4.0
 
 C_RANGE, C_DEPTH, C_LO, C_HI, C_KIND, C_FROM = 0, 1, 2, 3, 4, 5
 N_CANDIDATE = 6
@@ -85,7 +89,8 @@ def find_brackets(rec, thetas, depths, out):
                     continue
                 for k in range(n_depths):
                     step = (depths[k] - row[_k.R_Z]) / d
-                    inside = (0.0 < step < span) if side == 0 else (-span < step < 0.0)
+                    # the branch may bend before it ends: look a few gap widths past the prediction
+                    inside = (0.0 < step < EDGE_REACH * span) if side == 0 else (-EDGE_REACH * span < step < 0.0)
                     if inside:
                         if n < cap:
                             out[n, C_RANGE] = j
@@ -99,60 +104,54 @@ def find_brackets(rec, thetas, depths, out):
 
 
 @nb.njit(cache=True, error_model="numpy")
-def refine_one(theta_lo, theta_hi, f_lo, f_hi, theta0, row0, kind, zr, r_target, zs, knots, coef, bed_r,
-               bed_z, bed_slope, bt_step, bt_re, bt_im, ab_dz, ab_db, ds, max_steps, floor_mag, tol,
-               rec_out, bins):
-    """Refine one eigenray; returns (converged, theta, iterations). ``rec_out`` is (1, N_RECORD)."""
+def refine_one(theta_a, f_a, theta_b, kind, row0, zr, r_target, zs, knots, coef, bed_r, bed_z, bed_slope, bt_step,
+               bt_re, bt_im, ab_dz, ab_db, ds, max_steps, floor_mag, tol, rec_out, bins):
+    """Refine one eigenray; returns (converged, theta, iterations). ``rec_out`` is (1, N_RECORD).
+
+    ``theta_a`` is a ray of the wanted history with depth miss ``f_a`` (``row0`` its record);
+    ``theta_b`` the other end of the bracket: a ray of the same history with the opposite miss
+    (straddle) or a ray of another history (edge). Every shot of the wanted history with the
+    sign of ``f_a`` moves the ``a`` end, one with the other sign or another history moves ``b``;
+    Newton steps with dz/dtheta0 are taken when they stay inside the bracket, bisection otherwise.
+    """
     rec_r = np.empty(1)
     rec_r[0] = r_target
     nop = np.empty(0)
     ns = row0[_k.R_NS]
     nb_ = row0[_k.R_NB]
     nc = row0[_k.R_NC]
-    lo = theta_lo
-    hi = theta_hi
-    # bracket signs (straddles only): f(lo) and f(hi) have opposite signs
-    s_lo = 1.0 if f_lo > 0.0 else -1.0
-    theta = theta0 + (zr - row0[_k.R_Z]) / dz_dtheta(row0)
-    if not (lo < theta < hi):
-        theta = 0.5 * (lo + hi)
-    for it in range(MAX_ITERATIONS):
+    a = theta_a
+    b = theta_b
+    s_a = 1.0 if f_a > 0.0 else -1.0
+    limit = MAX_ITERATIONS if kind == KIND_STRADDLE else EDGE_ITERATIONS
+    theta = theta_a + (zr - row0[_k.R_Z]) / dz_dtheta(row0)
+    for it in range(limit):
+        if not (min(a, b) < theta < max(a, b)):
+            theta = 0.5 * (a + b)
         for m in range(bins.shape[0]):
             bins[m] = 0.0
         rec_out[0, _k.R_Z] = np.nan
         _k.trace_ray(theta, zs, knots, coef, bed_r, bed_z, bed_slope, bt_step, bt_re, bt_im, ab_dz, ab_db, ds,
                      r_target, max_steps, floor_mag, rec_r, rec_out, nop, nop, nop, nop, bins)
         row = rec_out[0]
-        if np.isnan(row[_k.R_Z]):
-            return False, theta, it + 1
-        if row[_k.R_NS] != ns or row[_k.R_NB] != nb_ or row[_k.R_NC] != nc:
-            if kind != KIND_STRADDLE:
+        if np.isnan(row[_k.R_Z]) or row[_k.R_NS] != ns or row[_k.R_NB] != nb_ or row[_k.R_NC] != nc:
+            b = theta
+            theta = 0.5 * (a + b)
+            if abs(b - a) < 1e-13:
                 return False, theta, it + 1
-            # a boundary graze inside a straddle: shrink toward the ray the bracket came from
-            if theta0 <= theta:
-                hi = theta
-            else:
-                lo = theta
-            theta = 0.5 * (lo + hi)
             continue
         f = row[_k.R_Z] - zr
         if abs(f) < tol:
             return True, theta, it + 1
-        if kind == KIND_STRADDLE:
-            if (f > 0.0) == (s_lo > 0.0):
-                lo = theta
-            else:
-                hi = theta
+        if (f > 0.0) == (s_a > 0.0):
+            a = theta
+        else:
+            b = theta
+        if abs(b - a) < 1e-13:
+            return False, theta, it + 1
         d = dz_dtheta(row)
-        tn = theta - f / d if d != 0.0 else 0.5 * (lo + hi)
-        if not (lo < tn < hi):
-            if kind != KIND_STRADDLE:
-                return False, theta, it + 1
-            tn = 0.5 * (lo + hi)
-        if tn == theta:
-            return abs(f) < 10.0 * tol, theta, it + 1
-        theta = tn
-    return False, theta, MAX_ITERATIONS
+        theta = theta - f / d if d != 0.0 else 0.5 * (a + b)
+    return False, theta, limit
 
 
 @nb.njit(cache=True, parallel=True, error_model="numpy")
@@ -167,12 +166,11 @@ def refine_all(cand, thetas, rec, depths, ranges, zs, knots, coef, bed_r, bed_z,
         i_hi = int(cand[c, C_HI])
         kind = int(cand[c, C_KIND])
         i0 = int(cand[c, C_FROM])
+        i1 = i_hi if i0 == i_lo else i_lo
         row0 = rec[i0, j]
         zr = depths[k]
-        f_lo = rec[i_lo, j, _k.R_Z] - zr
-        f_hi = rec[i_hi, j, _k.R_Z] - zr
-        ok, th, _ = refine_one(thetas[i_lo], thetas[i_hi], f_lo, f_hi, thetas[i0], row0, kind, zr, ranges[j],
-                               zs, knots, coef, bed_r, bed_z, bed_slope, bt_step, bt_re, bt_im, ab_dz, ab_db,
-                               ds, max_steps, floor_mag, tol, out_rec[c:c + 1], out_bins[c])
+        ok, th, _ = refine_one(thetas[i0], row0[_k.R_Z] - zr, thetas[i1], kind, row0, zr, ranges[j], zs, knots, coef,
+                               bed_r, bed_z, bed_slope, bt_step, bt_re, bt_im, ab_dz, ab_db, ds, max_steps,
+                               floor_mag, tol, out_rec[c:c + 1], out_bins[c])
         out_theta[c] = th
         out_ok[c] = ok

@@ -55,6 +55,9 @@ PRUNE_MARGIN_DB = 10.0
 #: Default eigenray fan: widest launch angle, deg, and the coarsest spacing, deg.
 FAN_HALF_WIDTH_DEG = 80.0
 FAN_MAX_SPACING_DEG = 0.1
+#: Fan gap refinement: rays added per suspicious gap, and rounds.
+GAP_RAYS = 3
+GAP_ROUNDS = 3
 
 
 def default_angles_deg(site, max_range_m):
@@ -63,6 +66,31 @@ def default_angles_deg(site, max_range_m):
     spacing = min(FAN_MAX_SPACING_DEG, 0.25 * branch)
     n = int(math.ceil(2.0 * FAN_HALF_WIDTH_DEG / spacing)) + 1
     return np.linspace(-FAN_HALF_WIDTH_DEG, FAN_HALF_WIDTH_DEG, n)
+
+
+def _refine_gaps(medium, thetas, rec, info, zs, r_sorted, r_max, budget):
+    """Add rays inside fan gaps where a whole bounce branch could hide.
+
+    Where two adjacent rays reach a receiver range with histories that differ by two or more
+    (surface bounces + seabed bounces + caustics), a branch narrower than the fan spacing may lie
+    between them; :data:`GAP_RAYS` rays are added in each such gap, for up to :data:`GAP_ROUNDS`
+    rounds. Gaps that differ by one bounce are single branch edges, which the edge prediction covers.
+    """
+    for _ in range(GAP_ROUNDS):
+        both = ~np.isnan(rec[:-1, :, _k.R_Z]) & ~np.isnan(rec[1:, :, _k.R_Z])
+        jump = np.abs(rec[1:, :, _k.R_NS] - rec[:-1, :, _k.R_NS]) + np.abs(
+            rec[1:, :, _k.R_NB] - rec[:-1, :, _k.R_NB]) + np.abs(rec[1:, :, _k.R_NC] - rec[:-1, :, _k.R_NC])
+        gaps = np.flatnonzero(np.any(both & (jump >= 2), axis=1))
+        if gaps.size == 0:
+            break
+        frac = np.arange(1, GAP_RAYS + 1) / (GAP_RAYS + 1)
+        new = (thetas[gaps, None] + frac[None, :] * (thetas[gaps + 1] - thetas[gaps])[:, None]).ravel()
+        rec_n, info_n, _ = run_fan(medium, new, zs, r_sorted, r_max, max_steps=budget)
+        order = np.argsort(np.concatenate([thetas, new]), kind="stable")
+        thetas = np.concatenate([thetas, new])[order]
+        rec = np.concatenate([rec, rec_n])[order]
+        info = np.concatenate([info, info_n])[order]
+    return np.ascontiguousarray(thetas), np.ascontiguousarray(rec), info
 
 
 def _check_receivers(site, ranges_m, depths_m):
@@ -173,6 +201,7 @@ def find_arrivals(site, ranges_m=None, depths_m=None, freq_hz=None, *, source_de
     thetas = np.radians(angles)
     budget = step_budget(r_max, medium.step_m, float(np.max(np.abs(angles))))
     rec, info, _ = run_fan(medium, thetas, zs, r_sorted, r_max, max_steps=budget)
+    thetas, rec, info = _refine_gaps(medium, thetas, rec, info, zs, r_sorted, r_max, budget)
     reasons = {}
     reached = ~np.isnan(rec[:, :, _k.R_Z])
     for j in np.flatnonzero(~reached.any(axis=0)):

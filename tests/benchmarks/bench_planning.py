@@ -52,7 +52,7 @@ def timed(func, *args, **kw):
 def plan_one_fan_per_range(site, ranges, depth):
     """Baseline: the same search, but a separate ray fan for every range."""
     for r in ranges:
-        search.evaluate_block(site, [r], [depth], grid, site.modem.target_ber)
+        search.evaluate_block(site, [r], [depth], grid, site.modem.target_ber, site.modem.margin_db)
 
 
 def main():

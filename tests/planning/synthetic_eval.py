@@ -15,6 +15,25 @@ import time
 import numpy as np
 from scipy.special import erfc, erfcinv
 
+from aculink.site.model import Modem, Noise, Receiver, Seabed, Site, Source, Surface, Water
+from aculink.site.profile import SoundSpeedProfile
+
+def make_site(depth_m=100.0, *, speed_mps=1500.0, bandwidth_hz=4000.0, carrier_hz=12000.0,
+              source_depth_m=20.0, level_db=170.0, name="test flat shelf"):
+    """A flat-bottomed isovelocity site built in Python (a scenario of our own)."""
+    return Site(
+        name=name,
+        water=Water(profile=SoundSpeedProfile(np.array([0.0, depth_m]), np.array([speed_mps, speed_mps]))),
+        seabed=Seabed(range_m=np.array([0.0]), depth_m=np.array([depth_m]), sound_speed_mps=1650.0,
+                      density_kgm3=1900.0, attenuation_db_per_wavelength=0.8, sediment="sand"),
+        surface=Surface(0.0, 0.0), noise=Noise(0.5, 0.0, 0.0),
+        source=Source(depth_m=source_depth_m, level_db=level_db),
+        receiver=Receiver(depth_m=30.0, range_m=2000.0),
+        modem=Modem(carrier_hz=carrier_hz, bandwidth_hz=bandwidth_hz, rolloff=0.25,
+                    target_ber=1e-4, margin_db=3.0),
+    )
+
+
 MODULATIONS = ("bpsk", "qpsk")
 BITS = {"bpsk": 1, "qpsk": 2}
 RECEIVERS = ("none", "linear", "dfe")
@@ -34,7 +53,7 @@ def required_db(modulation, target):
     return 10 * np.log10(q * q / (2.0 if modulation == "bpsk" else 1.0))
 
 
-def evaluate(site, ranges_m, depths_m, grid, target_ber):
+def evaluate(site, ranges_m, depths_m, grid, target_ber, margin_db=3.0):
     """Evaluator with the planner's interface (see aculink.planning.search.evaluate_block)."""
     delay = float(os.environ.get("ACULINK_TEST_CHUNK_DELAY_S", "0"))
     if delay:
@@ -69,10 +88,10 @@ def evaluate(site, ranges_m, depths_m, grid, target_ber):
 INTERRUPT_AT_RANGE_M = None
 
 
-def evaluate_interruptible(site, ranges_m, depths_m, grid, target_ber):
+def evaluate_interruptible(site, ranges_m, depths_m, grid, target_ber, margin_db=3.0):
     """Like :func:`evaluate`, but simulates Ctrl-C once at ``INTERRUPT_AT_RANGE_M``."""
     global INTERRUPT_AT_RANGE_M
     if INTERRUPT_AT_RANGE_M is not None and INTERRUPT_AT_RANGE_M in list(ranges_m):
         INTERRUPT_AT_RANGE_M = None
         raise KeyboardInterrupt
-    return evaluate(site, ranges_m, depths_m, grid, target_ber)
+    return evaluate(site, ranges_m, depths_m, grid, target_ber, margin_db)

@@ -77,7 +77,7 @@ def scheduler():
 
 @pytest.fixture(scope="module")
 def serial(tmp_path_factory):
-    site = __import__("conftest").make_site()
+    site = synthetic_eval.make_site()
     out = tmp_path_factory.mktemp("serial") / "serial.nc"
     return site, run_sweep(site, RANGES, DEPTHS, out, workers=0, **OPTS)
 

@@ -77,7 +77,7 @@ def test_failing_point_is_recorded_not_raised(flat_site):
     fallback rule, no outside source)."""
     grid = search.CandidateGrid((1000.0, 500.0), synthetic_eval.MODULATIONS, synthetic_eval.RECEIVERS)
     depths = [10.0, synthetic_eval.BAD_DEPTH_M, 20.0]
-    block = search.evaluate_safely(synthetic_eval.evaluate, flat_site, [1000.0, 2000.0], depths, grid, 1e-4)
+    block = search.evaluate_safely(synthetic_eval.evaluate, flat_site, [1000.0, 2000.0], depths, grid, 1e-4, 3.0)
     assert list(block["error"][:, 1]) == ["ValueError: synthetic failure at depth 13.0 m"] * 2
     assert np.all(block["error"][:, [0, 2]] == "")
     assert np.all(np.isfinite(block["snr_out_db"][:, [0, 2]]))

@@ -103,8 +103,8 @@ def test_simulated_ctrl_c_then_resume_equals_uninterrupted(flat_site, tmp_path, 
 _CHILD = """
 import sys
 sys.path[:0] = [{main!r}, {here!r}]
-from conftest import make_site
 import synthetic_eval
+from synthetic_eval import make_site
 from aculink.planning import run_sweep
 run_sweep(make_site(), {ranges!r}, {depths!r}, {out!r}, receivers=list(synthetic_eval.RECEIVERS),
           modulations=list(synthetic_eval.MODULATIONS), chunk_ranges=1, workers=0, quiet=True,

@@ -1,4 +1,4 @@
-"""Sites for the propagation tests, built directly from the dataclasses (scenarios of our own)."""
+"""Fixtures of the propagation tests: sites built directly from the dataclasses (scenarios of our own)."""
 
 from __future__ import annotations
 
@@ -41,6 +41,14 @@ def munk_profile(max_depth_m=5000.0, step_m=10.0):
     return z, 1500.0 * (1.0 + 0.00737 * (eta - 1.0 + np.exp(-eta)))
 
 
-@pytest.fixture
+
+@pytest.fixture(scope="session")
 def make_site():
+    """The site builder :func:`build_site`."""
     return build_site
+
+
+@pytest.fixture(scope="session")
+def munk():
+    """The tabulated Munk profile builder :func:`munk_profile`."""
+    return munk_profile
