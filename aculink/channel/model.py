@@ -102,12 +102,15 @@ class Channel:
         if freq.size > 1 and np.any(np.diff(freq) <= 0):
             raise AculinkError("freq_hz: the frequency grid must increase")
 
-        def per_path(value, default, dtype=float):
+        def per_path(name, default, dtype=float):
+            value = getattr(self, name)
             if value is None:
                 return np.full(p, default, dtype=dtype)
             arr = np.atleast_1d(np.asarray(value, dtype=dtype))
             if arr.size != p:
-                raise AculinkError(f"per-path array has {arr.size} values for {p} paths")
+                raise AculinkError(f"{name} has {arr.size} values but there are {p} paths: they must match")
+            if dtype is float and np.any(np.isinf(arr)):
+                raise AculinkError(f"{name} must be finite")
             return arr
 
         order = np.argsort(delay, kind="stable")
@@ -117,18 +120,18 @@ class Channel:
             "gain": gain,
             "carrier_hz": fc,
             "bandwidth_hz": b,
-            "doppler": per_path(self.doppler, 0.0),
-            "surface_bounces": per_path(self.surface_bounces, 0, np.int64),
-            "bottom_bounces": per_path(self.bottom_bounces, 0, np.int64),
-            "surface_grazing_sin2_sum": per_path(self.surface_grazing_sin2_sum, 0.0),
-            "launch_angle_deg": per_path(self.launch_angle_deg, np.nan),
-            "arrival_angle_deg": per_path(self.arrival_angle_deg, np.nan),
+            "doppler": per_path("doppler", 0.0),
+            "surface_bounces": per_path("surface_bounces", 0, np.int64),
+            "bottom_bounces": per_path("bottom_bounces", 0, np.int64),
+            "surface_grazing_sin2_sum": per_path("surface_grazing_sin2_sum", 0.0),
+            "launch_angle_deg": per_path("launch_angle_deg", np.nan),
+            "arrival_angle_deg": per_path("arrival_angle_deg", np.nan),
         }
         if self.surface_doppler_spread_hz is None:
             values["surface_doppler_spread_hz"] = surface_doppler_spread_hz(
                 values["surface_grazing_sin2_sum"], fc, self.surface)
         else:
-            values["surface_doppler_spread_hz"] = per_path(self.surface_doppler_spread_hz, 0.0)
+            values["surface_doppler_spread_hz"] = per_path("surface_doppler_spread_hz", 0.0)
         for key, val in values.items():
             if isinstance(val, np.ndarray) and key != "freq_hz" and val.shape[:1] == (p,):
                 val = val[order]

@@ -189,10 +189,15 @@ def _evaluate_process(a, b, w, t):
         grid = t
     else:
         grid = t0 + step * np.arange(n)
-    phase = np.multiply.outer(w, grid)
-    eta = a @ np.cos(phase) + b @ np.sin(phase)
     if grid is t:
-        return eta
+        phase = np.multiply.outer(w, grid)
+        return a @ np.cos(phase) + b @ np.sin(phase)
+    # uniform grid: exp(j w t_k) by a running product (rounding grows as k eps, < 1e-11 here)
+    rot = np.empty((w.size, grid.size), dtype=complex)
+    rot[:, 0] = np.exp(1j * w * grid[0])
+    rot[:, 1:] = np.exp(1j * w * step)[:, None]
+    rot = np.cumprod(rot, axis=1)
+    eta = ((a - 1j * b) @ rot).real
     pos = (t - t0) / step
     i0 = np.clip(np.floor(pos).astype(np.int64), 0, n - 2)
     frac = pos - i0

@@ -82,6 +82,10 @@ def parse_span(text: str, field: str, *, positive: bool = False) -> np.ndarray:
             values = start + step * np.arange(n)
         else:
             values = np.array([float(p) for p in text.split(",") if p.strip() != ""])
+    except AculinkError:  # a subclass of ValueError: keep its precise message
+        raise
+    except AculinkError:
+        raise
     except ValueError:
         raise AculinkError(f"{field} = {text!r}: expected start:stop:step, a comma list or a number") from None
     if values.size == 0:

@@ -31,14 +31,14 @@ def register(subparsers) -> None:
     parser.set_defaults(func=run)
 
 
-def arrivals_table(ds) -> dict:
-    """The JSON-ready summary of a one-receiver ``find_arrivals`` result."""
+def arrivals_table(variables, coords, attrs) -> dict:
+    """The JSON-ready summary of a one-receiver result of ``solve_arrivals``."""
     import numpy as np
 
-    one = ds.isel(range=0, depth=0, frequency=0)
-    n = int(one.n_arrivals)
-    delay = one.delay_s.values[:n]
-    amp = one.amplitude.values[:n]
+    v = {name: value[1] for name, value in variables.items()}
+    n = int(v["n_arrivals"][0, 0])
+    delay = v["delay_s"][0, 0, :n]
+    amp = v["amplitude"][0, 0, :n, 0]
     first = float(delay[0]) if n else float("nan")
     rows = []
     for i in range(n):
@@ -47,16 +47,16 @@ def arrivals_table(ds) -> dict:
             "delay_s": float(delay[i]), "relative_delay_s": float(delay[i] - first), "amplitude": mag,
             "phase_rad": float(np.angle(amp[i])),
             "level_db": float(20.0 * np.log10(mag)) if mag > 0 else None,
-            "launch_angle_deg": float(one.launch_angle_deg.values[i]),
-            "arrival_angle_deg": float(one.arrival_angle_deg.values[i]),
-            "surface_bounces": int(one.surface_bounces.values[i]), "bottom_bounces": int(one.bottom_bounces.values[i]),
-            "caustics": int(one.caustics.values[i]), "path_length_m": float(one.path_length_m.values[i]),
-            "absorption_db": float(one.absorption_db.values[i]),
+            "launch_angle_deg": float(v["launch_angle_deg"][0, 0, i]),
+            "arrival_angle_deg": float(v["arrival_angle_deg"][0, 0, i]),
+            "surface_bounces": int(v["surface_bounces"][0, 0, i]), "bottom_bounces": int(v["bottom_bounces"][0, 0, i]),
+            "caustics": int(v["caustics"][0, 0, i]), "path_length_m": float(v["path_length_m"][0, 0, i]),
+            "absorption_db": float(v["absorption_db"][0, 0, i, 0]),
         })
-    return {"site": ds.attrs["site"], "source_depth_m": float(ds.attrs["source_depth_m"]),
-            "range_m": float(ds.range.values[0]), "depth_m": float(ds.depth.values[0]),
-            "frequency_hz": float(ds.frequency.values[0]), "dynamic_range_db": float(ds.attrs["dynamic_range_db"]),
-            "arrivals": rows, "n_dropped": int(one.n_dropped), "reason": ds.attrs.get("reason")}
+    return {"site": attrs["site"], "source_depth_m": float(attrs["source_depth_m"]),
+            "range_m": float(coords["range"][1][0]), "depth_m": float(coords["depth"][1][0]),
+            "frequency_hz": float(coords["frequency"][1][0]), "dynamic_range_db": float(attrs["dynamic_range_db"]),
+            "arrivals": rows, "n_dropped": int(v["n_dropped"][0, 0]), "reason": attrs.get("reason")}
 
 
 def format_table(summary) -> str:
@@ -85,12 +85,12 @@ def format_table(summary) -> str:
 
 
 def run(args) -> int:
-    from aculink.propagation.eigenrays import find_arrivals
+    from aculink.propagation.eigenrays import solve_arrivals
 
     site = load_site_arg(args.site)
-    ds = find_arrivals(site, args.range_m, args.depth_m, args.frequency_hz, source_depth_m=args.source_depth_m,
-                       dynamic_range_db=args.dynamic_range_db)
-    summary = arrivals_table(ds)
+    summary = arrivals_table(*solve_arrivals(site, args.range_m, args.depth_m, args.frequency_hz,
+                                             source_depth_m=args.source_depth_m,
+                                             dynamic_range_db=args.dynamic_range_db))
     if args.json:
         print_json(summary)
     else:

@@ -65,7 +65,7 @@ def report(site, channel, budget) -> dict:
         "units": dict(terms["units"], tl_incoherent_db="dB re 1 m (band-averaged)",
                       rms_delay_spread_s="s", spread_90_s="s (shortest window with 90% of the energy)",
                       spread_99_s="s (shortest window with 99% of the energy)",
-                      coherence_bandwidth_hz="Hz (|R(df)| = 0.5; null when wider than any offset)",
+                      coherence_bandwidth_hz="Hz (|R(df)| = 0.5; null when it never falls that far)",
                       doppler_spread_hz="Hz (rms)", coherence_time_s="s (|R(dt)| = 0.5; null when never)"),
         "caution": CAUTION,
     }
@@ -99,9 +99,9 @@ def format_report(rep: dict) -> str:
             ("RMS delay spread", _fmt(rep["rms_delay_spread_s"], "ms", 1e3)),
             ("90% energy spread", _fmt(rep["spread_90_s"], "ms", 1e3)),
             ("99% energy spread", _fmt(rep["spread_99_s"], "ms", 1e3)),
-            ("Coherence bandwidth", _fmt(rep["coherence_bandwidth_hz"], "Hz", digits=0, inf_text="wider than any offset")),
+            ("Coherence bandwidth", _fmt(rep["coherence_bandwidth_hz"], "Hz", digits=0, inf_text="|R(df)| stays above 0.5 (one arrival dominates)")),
             ("Doppler shift / spread", f"{_fmt(rep['doppler_shift_hz'], 'Hz')} / {_fmt(rep['doppler_spread_hz'], 'Hz rms')}"),
-            ("Coherence time", _fmt(rep["coherence_time_s"], "s", digits=3, inf_text="no decorrelation")),
+            ("Coherence time", _fmt(rep["coherence_time_s"], "s", digits=3, inf_text="|R(dt)| stays above 0.5 (no decorrelation)")),
             ("TL coherent", _fmt(rep["tl_coherent_db"], "dB re 1 m", digits=1)),
             ("TL incoherent", _fmt(rep["tl_incoherent_db"], "dB re 1 m", digits=1)),
         ]

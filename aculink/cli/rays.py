@@ -25,6 +25,10 @@ def register(subparsers) -> None:
     parser.add_argument("--plot", metavar="FILE.png", help="draw the fan to this PNG file")
     parser.add_argument("--overwrite", action="store_true", help="replace an existing --plot file")
     parser.add_argument("--json", action="store_true", help="print the per-ray summary as one JSON object")
+    # let a span that starts with a minus sign ("-30:30:121") be an option value, as for negative numbers
+    import re
+
+    parser._negative_number_matcher = re.compile(r"^-\d+$|^-\d*\.\d+$|^-[\d.]+:[-\d.:]+$")
     parser.set_defaults(func=run)
 
 

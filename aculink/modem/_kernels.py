@@ -313,3 +313,48 @@ def fixed_dfe(yr, yi, start0, stride, n_sym, n_ff, fb_delays, train, n_train, pt
             integ += phi
             theta += k1 * phi + k2 * integ
     return 0
+
+
+@njit(cache=True, error_model="numpy")
+def gram_update(base, c, out):
+    """``out = base - c c^H`` for complex ``c`` (n, k): the MMSE-DFE matrix without the
+    fed-back columns. Single-threaded on purpose: the matrices are small (n <= 128) and a
+    threaded BLAS on a shared two-core host spends more time synchronising than computing."""
+    n, k = c.shape
+    for i in range(n):
+        for j in range(n):
+            acc = base[i, j]
+            for m in range(k):
+                acc -= c[i, m] * np.conj(c[j, m])
+            out[i, j] = acc
+
+
+@njit(cache=True, error_model="numpy")
+def cholesky_solve(a, b, x):
+    """Solve ``a x = b`` for Hermitian positive definite ``a`` by Cholesky (``a`` is
+    overwritten with L). Returns False when ``a`` is not positive definite."""
+    n = a.shape[0]
+    for j in range(n):
+        d = a[j, j].real
+        for k in range(j):
+            d -= a[j, k].real * a[j, k].real + a[j, k].imag * a[j, k].imag
+        if not d > 0.0:
+            return False
+        d = np.sqrt(d)
+        a[j, j] = d
+        for i in range(j + 1, n):
+            acc = a[i, j]
+            for k in range(j):
+                acc -= a[i, k] * np.conj(a[j, k])
+            a[i, j] = acc / d
+    for i in range(n):  # L y = b
+        acc = b[i]
+        for k in range(i):
+            acc -= a[i, k] * x[k]
+        x[i] = acc / a[i, i].real
+    for i in range(n - 1, -1, -1):  # L^H x = y
+        acc = x[i]
+        for k in range(i + 1, n):
+            acc -= np.conj(a[k, i]) * x[k]
+        x[i] = acc / a[i, i].real
+    return True

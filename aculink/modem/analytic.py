@@ -32,6 +32,7 @@ import numpy as np
 import scipy.linalg
 
 from aculink.errors import AculinkError
+from aculink.modem import _kernels
 
 
 def folded_snr_from_taps(taps, snr, n_grid: int = 2 ** 16) -> np.ndarray:
@@ -215,30 +216,63 @@ def mmse_dfe_design(q, n_ff: int, n_fb: int = 0, *, stride: int = 1, es: float =
     if starts is None:
         starts = range(peak - n_ff + 1, peak + 1)
     r_nn = _noise_matrix(noise_acf, n_ff)
-    best = None
     r_idx = np.arange(n_ff)
-    for t in starts:
-        t = int(t)
-        j_lo = -((t + n_ff - 1) // stride)
-        j_hi = (lq - 1 - t) // stride
-        js = np.arange(j_lo, max(j_hi, fb.max(initial=0)) + 1)
+    fb_max = int(fb.max(initial=0))
+
+    def columns(t, js):
         idx = t + r_idx[:, None] + js[None, :] * stride
         valid = (idx >= 0) & (idx < lq)
-        cols = np.where(valid, q[np.clip(idx, 0, lq - 1)], 0.0)
-        keep = ~np.isin(js, fb)
-        ck = cols[:, keep]
-        c0 = cols[:, np.nonzero(js == 0)[0][0]]
-        rmat = es * (ck @ ck.conj().T) + r_nn
-        try:
-            cf = scipy.linalg.cho_factor(rmat, lower=True, check_finite=False)
-        except np.linalg.LinAlgError:
+        return np.where(valid, q[np.clip(idx, 0, lq - 1)], 0.0)
+
+    # The Gram matrix over *all* columns, sum_j c_j c_j^H, depends on the start t only through
+    # t mod stride (a shift by one symbol re-indexes j), so it is formed once per parity and the
+    # fed-back columns are subtracted for each start: far less work than re-forming it.
+    gram = {}
+
+    lags = np.arange(n_ff)
+    diff = lags[None, :] - lags[:, None]  # r' - r
+
+    def full_gram(t):
+        # A[r, r'] = sum_{k = t + r (mod stride)} q[k] conj(q[k + r' - r]) = S_{(t + r) mod s}(r' - r)
+        par = t % stride
+        if par not in gram:
+            corr = []
+            for e in range(stride):
+                mq = np.zeros_like(q)
+                mq[e::stride] = q[e::stride]
+                full = np.conj(np.correlate(q, mq, "full"))  # index lq - 1 + d holds S_e(d)
+                corr.append(full)
+            pr = (par + lags) % stride
+            a = np.empty((n_ff, n_ff), complex)
+            idx = lq - 1 + diff
+            ok = (idx >= 0) & (idx < 2 * lq - 1)
+            for e in range(stride):
+                rows = pr == e
+                a[rows] = np.where(ok[rows], corr[e][np.clip(idx[rows], 0, 2 * lq - 2)], 0.0)
+            gram[par] = a
+        return gram[par]
+
+    work = np.empty((n_ff, n_ff), complex)
+    sol = np.empty(n_ff, complex)
+
+    def evaluate(t):
+        c0 = np.ascontiguousarray(columns(t, np.array([0]))[:, 0])
+        cfb = np.ascontiguousarray(columns(t, fb)) if fb.size else np.zeros((n_ff, 0), complex)
+        _kernels.gram_update(np.ascontiguousarray(es * full_gram(t) + r_nn), es * cfb, work)
+        if not _kernels.cholesky_solve(work, c0, sol):
+            return None
+        mmse = es * (1.0 - es * float(np.real(np.vdot(c0, sol))))
+        return mmse, sol.copy(), cfb
+
+    best = None
+    for t in starts:
+        t = int(t)
+        res = evaluate(t)
+        if res is None:
             continue
-        sol = scipy.linalg.cho_solve(cf, c0, check_finite=False)
-        quad = float(np.real(np.vdot(c0, sol)))
-        mmse = es * (1.0 - es * quad)
+        mmse, sol, cfb = res
         if best is None or mmse < best[0]:
             w = es * sol
-            cfb = cols[:, np.searchsorted(js, fb)] if fb.size else np.zeros((n_ff, 0), complex)
             b = np.conj(w.conj() @ cfb)  # b_j such that conj(b_j) = w^H c_j
             best = (mmse, w, b, t)
     if best is None:

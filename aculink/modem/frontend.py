@@ -72,6 +72,33 @@ def time_scale(x, factor: float, sample_rate_hz: float, carrier_hz: float, *, in
     return out * np.exp(2j * np.pi * a * carrier_hz * m / sample_rate_hz)
 
 
+def rms_bandwidth_symbols(rolloff: float) -> float:
+    """RMS bandwidth of the RRC power spectrum in units of Rs: ``sqrt(int f^2 |G|^2 / int |G|^2)``."""
+    from aculink.modem.pulses import raised_cosine_spectrum
+
+    f = np.linspace(-0.5 * (1 + rolloff), 0.5 * (1 + rolloff), 4001)
+    g2 = raised_cosine_spectrum(f, rolloff)
+    return float(np.sqrt(np.trapezoid(f * f * g2, f) / np.trapezoid(g2, f)))
+
+
+def doppler_floor(rolloff: float, n_sync: int, snr: float, n_frame_symbols: int) -> float:
+    """Standard deviation of the time-scale estimate from two peak timings.
+
+    Each peak time has the Cramer-Rao bound ``sigma_t / T = 1 / (2 pi B_rms T sqrt(2 E/N0))``
+    with ``E/N0 = n_sync SNR`` (Kay, Fundamentals of Statistical Signal Processing: Estimation
+    Theory, 1993, ch. 3, time-delay estimation, from memory); the scale is their difference
+    over the frame, so ``sigma_a = sqrt 2 sigma_t / (n_frame T)``.
+    """
+    sig_t = 1.0 / (2 * np.pi * rms_bandwidth_symbols(rolloff) * np.sqrt(2.0 * n_sync * max(snr, 1e-3)))
+    return float(np.sqrt(2.0) * sig_t / n_frame_symbols)
+
+
+#: A time-scale estimate is applied only when it exceeds this many standard deviations of its
+#: noise floor: compensating a scale that is only noise makes a receiver without timing
+#: tracking drift off the symbol instants (measured: 0.05 dB at 7 dB over 3000-symbol frames).
+DOPPLER_SIGNIFICANCE = 3.0
+
+
 def correlate_sequence(r, symbols, sps: int) -> np.ndarray:
     """``c[n] = sum_k conj(s_k) r[n + k sps]`` for every start n (valid part only)."""
     s = np.asarray(symbols, dtype=complex)
@@ -168,6 +195,16 @@ def synchronise(y, *, rolloff, sps, sync_head, sync_tail, training, n_frame_symb
     if k0 is None:
         k0, _ = _peak(c, 0, c.size)
     if track_doppler and k0 is not None:
+        # SNR seen by the preamble (residual ISI counts as noise: a conservative floor)
+        n0c = int(round(k0))
+        seg = r[n0c:n0c + sps * len(sync_head):sps]
+        if seg.size == len(sync_head):
+            hs = np.asarray(sync_head)
+            gain = np.vdot(hs, seg) / np.vdot(hs, hs)
+            snr_pre = abs(gain) ** 2 / max(np.mean(np.abs(seg - gain * hs) ** 2), 1e-300)
+        else:
+            snr_pre = 1.0
+        floor = DOPPLER_SIGNIFICANCE * doppler_floor(rolloff, len(sync_head), snr_pre, n_frame_symbols)
         # two passes: after the first compensation both peaks sit at the same fractional
         # sample offset, so the bias of the parabolic peak fit cancels in the second estimate
         y0 = y
@@ -181,7 +218,7 @@ def synchronise(y, *, rolloff, sps, sync_head, sync_tail, training, n_frame_symb
                 break
             a_step = nominal / (k1 - k0) - 1.0
             a = (1.0 + doppler) * (1.0 + a_step) - 1.0
-            if abs(a) > MAX_DOPPLER_FACTOR or abs(a_step) < 1e-7:
+            if abs(a) > MAX_DOPPLER_FACTOR or abs(a_step) < 1e-7 or (doppler == 0.0 and abs(a) < floor):
                 break
             doppler = a
             y = time_scale(y0, a, sample_rate_hz, carrier_hz, inverse=True)

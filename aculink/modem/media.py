@@ -99,6 +99,9 @@ class TapMedium:
     def spread_s(self, rs):
         return (self.taps.size - 1) / rs
 
+    def variation_noise(self, lag_s):
+        return 0.0
+
 
 class ChannelMedium:
     """A :class:`aculink.channel.Channel` with a link budget's coloured noise, or white noise
@@ -114,14 +117,16 @@ class ChannelMedium:
             raise AculinkError("budget = None and snr_db = None: give a link budget or snr_db (band SNR, dB)")
         # the receiver's clock starts at the first arrival: only relative delays matter
         self.channel = dataclasses.replace(channel, delay_s=channel.delay_s - channel.delay_s.min())
+        self._setup_variation(time_varying)
         self.budget = budget
         self.carrier_hz = float(channel.carrier_hz)
         self.bandwidth_hz = float(channel.bandwidth_hz)
         self.time_varying = bool(time_varying)
         fc, b = self.carrier_hz, self.bandwidth_hz
-        grid = np.linspace(fc - b / 2, fc + b / 2, 513)
-        h2_band = np.abs(self.channel.transfer_function(grid).values) ** 2
+        self._memo = {}
         if snr_db is not None:
+            grid = np.linspace(fc - b / 2, fc + b / 2, 513)
+            h2_band = np.abs(self.design.transfer_function(grid).values) ** 2
             self.snr_db = check_range("snr_db", snr_db, -30.0, 80.0, unit="dB")
             self.source_power = 1.0
             # band SNR = P mean|H|^2 / (N0 B): white N0 over the band
@@ -132,6 +137,54 @@ class ChannelMedium:
             self.source_power = 10 ** (budget.source_level_db / 10)
             self.n0 = None
             self.snr_in_db = float(budget.snr_band_db)
+
+    def _setup_variation(self, time_varying):
+        """Mean-power channel and per-path fluctuation for a time-varying channel.
+
+        The channel stage's surface model gives a rough-surface path the gain
+        ``g exp(j phi(t)) / chi`` (``chi = exp(-std^2/2)`` the Eckart coherent factor), so its
+        mean power is ``|g / chi|^2``, of which ``|g|^2`` is steady and the rest fluctuates with
+        the path's rms Doppler spread; paths with another Doppler factor than the strongest turn
+        against it at ``(a_p - a_0) fc``. Predictions use the mean-power channel (``design``)
+        and charge the part of the fluctuation a receiver cannot follow as noise
+        (:meth:`variation_noise`).
+        """
+        ch = self.channel
+        self.design = ch
+        self._fluct = None
+        if not (time_varying and ch.is_time_varying):
+            return
+        from aculink.channel.variation import surface_phase_std
+
+        p = ch.n_paths
+        std = np.zeros(p)
+        if ch.surface is not None and getattr(ch.surface, "active", False):
+            rough = ch.surface_grazing_sin2_sum > 0
+            std[rough] = surface_phase_std(ch.surface_grazing_sin2_sum[rough], ch.carrier_hz, ch.surface)
+        restore = np.exp(np.minimum(0.5 * std ** 2, 300.0))
+        self.design = dataclasses.replace(ch, gain=ch.gain * restore[:, None])
+        power = np.mean(np.abs(self.design.gain) ** 2, axis=1)
+        strongest = int(np.argmax(power))
+        self._fluct = dict(power=power, steady=np.exp(-np.minimum(std ** 2, 600.0)),
+                           spread_hz=np.asarray(ch.surface_doppler_spread_hz, dtype=float),
+                           offset_hz=(ch.doppler - ch.doppler[strongest]) * ch.carrier_hz)
+
+    def variation_noise(self, lag_s: float) -> float:
+        """Power (response units, times Es) of the channel change a receiver misses over ``lag_s``.
+
+        ``sum_p P_p min(1, 2 (1 - rho_p))`` with ``rho_p = [s_p + (1 - s_p) exp(-2 pi^2 nu_p^2 lag^2)]
+        cos(2 pi df_p lag)``: the error of using the path gain ``lag`` old (Gaussian Doppler
+        spectrum of rms width nu_p, steady fraction s_p, frequency offset df_p). Our own
+        approximation (no source); it is what makes predictions on a rough sea pessimistic
+        enough to match the simulation.
+        """
+        if self._fluct is None:
+            return 0.0
+        f = self._fluct
+        tau = float(lag_s)
+        rho = (f["steady"] + (1 - f["steady"]) * np.exp(-2 * np.pi ** 2 * f["spread_hz"] ** 2 * tau ** 2)) * np.cos(
+            2 * np.pi * f["offset_hz"] * tau)
+        return float(np.sum(f["power"] * np.minimum(1.0, 2.0 * (1.0 - rho))))
 
     def noise_psd(self, freq_hz):
         """Noise PSD (linear, uPa^2/Hz or the white level) at passband ``freq_hz``."""
@@ -145,6 +198,12 @@ class ChannelMedium:
         # equation adds to the SNR: the noise the receiver sees is NL(f) - DI
         return np.asarray(self.budget.noise_psd_db(freq_hz), dtype=float) - self.budget.directivity_index_db
 
+    def memo(self, key, func):
+        """Per-channel cache of quantities that do not depend on the receiver."""
+        if key not in self._memo:
+            self._memo[key] = func()
+        return self._memo[key]
+
     def check_rate(self, rs, beta):
         b = self.bandwidth_hz
         if rs * (1 + beta) > b * (1 + 1e-9):
@@ -153,7 +212,7 @@ class ChannelMedium:
                 f"> bandwidth {b:g} Hz: allowed range is (0, {b / (1 + beta):g}] Bd")
 
     def response(self, rs, beta, sps):
-        taps = self.channel.symbol_taps(rs, beta, sps).taps
+        taps = self.design.symbol_taps(rs, beta, sps).taps
         return np.asarray(taps, dtype=complex)
 
     def _baseband(self, rs, beta, n=2049):
@@ -179,7 +238,7 @@ class ChannelMedium:
         g2 = raised_cosine_spectrum(fa / rs, beta) / rs
         use = g2 > 0
         h = np.zeros(fa.size, dtype=complex)
-        h[use] = self.channel.transfer_function(self.carrier_hz + fa[use]).values
+        h[use] = self.design.transfer_function(self.carrier_hz + fa[use]).values
         dens = np.zeros(fa.size)
         dens[use] = self.source_power * g2[use] * np.abs(h[use]) ** 2 / self.noise_psd(self.carrier_hz + fa[use])
         return dens.reshape(len(ks), n_grid).sum(axis=0)
@@ -188,7 +247,7 @@ class ChannelMedium:
         """Water-filling capacity over the channel's band with the source power, bits/s."""
         fc, b = self.carrier_hz, self.bandwidth_hz
         f = fc - b / 2 + (np.arange(n_grid) + 0.5) * b / n_grid
-        h2 = np.abs(self.channel.transfer_function(f).values) ** 2
+        h2 = np.abs(self.design.transfer_function(f).values) ** 2
         gamma = self.source_power * h2 / (self.noise_psd(f) * b)
         bits, _ = water_filling(gamma)
         return bits * b
@@ -196,7 +255,7 @@ class ChannelMedium:
     def es_n0_db(self, rs, beta):
         """Received Es/N0 at the strongest-arrival-free reference: P_tx T mean|H|^2 / mean N."""
         f, g2 = self._baseband(rs, beta)
-        h2 = np.abs(self.channel.transfer_function(self.carrier_hz + f).values) ** 2
+        h2 = np.abs(self.design.transfer_function(self.carrier_hz + f).values) ** 2
         s = self.source_power * np.trapezoid(g2 * h2, f) / rs
         n = np.trapezoid(g2 * self.noise_psd(self.carrier_hz + f), f)
         return 10 * np.log10(s / n)

@@ -12,6 +12,10 @@ output SNR the named receiver achieves with the spans it would really use:
   is assumed to see correct decisions, as in the design equations);
 * ``mmse-dfe``: the finite-length design on the known channel.
 
+On a time-varying channel the design uses the mean-power channel, and the part of each path's
+fluctuation that the receiver cannot follow over its tracking lag (:func:`tracking_lag_s`) is
+added to the noise (:meth:`aculink.modem.media.ChannelMedium.variation_noise`).
+
 The BER is the closed form of the modulation at that SNR (residual ISI taken as Gaussian).
 The infinite-length bounds (matched filter, MMSE-LE, MMSE-DFE: Salz 1973, Cioffi et al. 1995)
 over the folded SNR and the water-filling capacity come with every estimate.
@@ -34,13 +38,15 @@ from aculink.modem.analytic import equalizer_bounds, single_tap_sinr
 from aculink.modem.ber import bit_error_rate
 from aculink.modem.constellations import MODULATIONS, check_modulation
 from aculink.modem.frames import frame_layout
-from aculink.modem.media import make_medium
+from aculink.modem.media import _rc_pulse, make_medium
 from aculink.modem.receivers import check_receiver, design_for, plan_receiver
 
 #: Roll-off used when neither the caller nor the site gives one (the site default).
 DEFAULT_ROLLOFF = 0.25
 
 _CACHE: OrderedDict = OrderedDict()
+#: Noise autocorrelation lags computed once per symbol rate (the longest default feedforward).
+_ACF_LAGS = 64
 _CACHE_SIZE = 4096
 
 
@@ -91,20 +97,56 @@ def _grid_size(span_symbols: int) -> int:
     return 1 << int(math.ceil(math.log2(n)))
 
 
-def _receiver_estimate(medium, rs, beta, receiver, opts):
-    q_half = medium.response(rs, beta, 2)
+def tracking_lag_s(plan, layout, rs) -> float:
+    """How old, on average, the channel knowledge a receiver decides with is, s.
+
+    Adaptive RLS: half its memory ``1 / (1 - lambda)`` symbols; NLMS: half of ``M / mu``
+    symbols; fixed-tap receivers (``none``, ``mmse-dfe``, set up on the preamble): the
+    training plus half the payload (common practice, no source).
+    """
+    if plan.receiver in ("none", "mmse-dfe"):
+        return (layout.n_train + 0.5 * layout.n_payload) / rs
+    if plan.algorithm == "rls":
+        return 0.5 / (1.0 - plan.forgetting) / rs
+    return 0.5 * plan.n_adapted / plan.step / rs
+
+
+_MEDIA: OrderedDict = OrderedDict()
+
+
+def _medium(channel, budget, snr_db, time_varying):
+    """The channel's medium, cached by identity (the planner asks the same channel many times)."""
+    key = (id(channel), id(budget), snr_db, bool(time_varying))
+    hit = _MEDIA.get(key)
+    if hit is not None and hit[0] is channel and hit[1] is budget:
+        return hit[2]
+    medium = make_medium(channel, budget, snr_db, time_varying=time_varying)
+    _MEDIA[key] = (channel, budget, medium)
+    while len(_MEDIA) > 64:
+        _MEDIA.popitem(last=False)
+    return medium
+
+
+def _receiver_estimate(medium, rs, beta, receiver, opts, n_training, n_payload):
+    memo = getattr(medium, "memo", lambda key, func: func())
+    q_half = memo(("response", rs, beta, 2), lambda: medium.response(rs, beta, 2))
     plan = plan_receiver(q_half, receiver, algorithm=opts["algorithm"], n_ff=opts["n_ff"], n_fb=opts["n_fb"],
                          sparse=opts["sparse"], n_sparse=opts["n_sparse"], forgetting=opts["forgetting"],
                          step=opts["step_size"])
+    layout = frame_layout(plan.n_adapted, plan.spread_symbols, algorithm=plan.algorithm,
+                          receiver=receiver, n_training=n_training, n_payload=n_payload)
     es = medium.es_over_ref(rs)
+    # channel change the receiver cannot follow, as white noise at the matched-filter output
+    extra = es * medium.variation_noise(tracking_lag_s(plan, layout, rs))
     if plan.receiver == "none":
-        q4 = medium.response(rs, beta, 4)
+        q4 = memo(("response", rs, beta, 4), lambda: medium.response(rs, beta, 4))
         m = int(np.argmax(np.abs(q4)))
         q_sym = q4[m % 4::4]
-        nv = float(np.real(medium.noise_acf(rs, beta, 1, 4)[0]))
+        nv = float(np.real(medium.noise_acf(rs, beta, 1, 4)[0])) + extra
         finite = single_tap_sinr(q_sym, es, nv)
     else:
-        acf = medium.noise_acf(rs, beta, plan.n_ff, 2)
+        n_lags = max(plan.n_ff, _ACF_LAGS)
+        acf = memo(("acf", rs, beta, n_lags), lambda: medium.noise_acf(rs, beta, n_lags, 2))[:plan.n_ff] + extra * _rc_pulse(np.arange(plan.n_ff) / 2, beta)
         ref = float(np.real(acf[0]))
         q_n = q_half * math.sqrt(es / ref)
         m = int(np.argmax(np.abs(q_n)))
@@ -120,7 +162,7 @@ def _receiver_estimate(medium, rs, beta, receiver, opts):
     # adaptation noise: MSE -> MSE (1 + mis); unbiased SNR = 1/MSE' - 1 (Es = 1)
     mse = 1.0 / (1.0 + finite)
     snr_out = 1.0 / (mse * (1.0 + mis)) - 1.0 if mis else finite
-    return plan, finite, max(snr_out, 1e-12), mis
+    return plan, layout, finite, max(snr_out, 1e-12), mis
 
 
 def predict_link(channel, budget=None, symbol_rate_baud=None, modulation="qpsk", receiver="dfe", *,
@@ -171,21 +213,24 @@ def predict_link(channel, budget=None, symbol_rate_baud=None, modulation="qpsk",
     beta = DEFAULT_ROLLOFF if rolloff is None else check_range("rolloff", rolloff, 0.0, 1.0, low_open=True)
     opts = dict(algorithm=algorithm, n_ff=n_ff, n_fb=n_fb, sparse=sparse, n_sparse=n_sparse,
                 forgetting=forgetting, step_size=step_size)
-    key = (id(channel), id(budget), snr_db, rs, beta, receiver, n_training, n_payload,
+    key = (id(channel), id(budget), snr_db, rs, beta, receiver, n_training, n_payload, bool(time_varying),
            tuple(sorted(opts.items())))
     hit = _CACHE.get(key)
     if hit is not None and hit[0] is channel and hit[1] is budget:
         core = hit[2]
     else:
-        medium = make_medium(channel, budget, snr_db, time_varying=time_varying)
+        medium = _medium(channel, budget, snr_db, time_varying)
         medium.check_rate(rs, beta)
-        plan, finite, snr_out, mis = _receiver_estimate(medium, rs, beta, receiver, opts)
-        layout = frame_layout(plan.n_adapted, plan.spread_symbols, algorithm=plan.algorithm,
-                              receiver=receiver, n_training=n_training, n_payload=n_payload)
-        bounds = equalizer_bounds(medium.folded_snr(rs, beta, _grid_size(plan.spread_symbols)))
-        core = dict(snr_band_db=float(medium.snr_in_db), es_n0_db=float(medium.es_n0_db(rs, beta)),
+        plan, layout, finite, snr_out, mis = _receiver_estimate(medium, rs, beta, receiver, opts, n_training,
+                                                                n_payload)
+        memo = getattr(medium, "memo", lambda key, func: func())
+        n_grid = _grid_size(plan.spread_symbols)
+        bounds = memo(("bounds", rs, beta, n_grid),
+                      lambda: equalizer_bounds(medium.folded_snr(rs, beta, n_grid)))
+        core = dict(snr_band_db=float(medium.snr_in_db),
+                    es_n0_db=float(memo(("es_n0", rs, beta), lambda: medium.es_n0_db(rs, beta))),
                     snr_out=snr_out, finite=finite, mis=mis, plan=plan, layout=layout, bounds=bounds,
-                    capacity_bps=float(medium.capacity_bps(rs, beta)))
+                    capacity_bps=float(memo(("capacity", rs, beta), lambda: medium.capacity_bps(rs, beta))))
         _CACHE[key] = (channel, budget, core)
         while len(_CACHE) > _CACHE_SIZE:
             _CACHE.popitem(last=False)

@@ -135,7 +135,8 @@ def simulate_link(channel, *, symbol_rate_baud, modulation, receiver, budget=Non
     algorithm : {"rls", "nlms"}
         Adaptation of ``linear`` and ``dfe``.
     samples_per_symbol : int
-        Transmit/channel oversampling (even, >= 2).
+        Transmit/channel oversampling (even, >= 2); raised for a Channel until the sample
+        rate covers its band.
     n_training, n_payload : int, optional
         Frame overrides (training >= the adapted taps and the 64-symbol preamble).
     n_ff, n_fb : int, optional
@@ -179,6 +180,10 @@ def simulate_link(channel, *, symbol_rate_baud, modulation, receiver, budget=Non
         raise AculinkError(f"samples_per_symbol = {sps}: must be even (the equalizers work at T/2)")
     medium = make_medium(channel, budget, snr_db, doppler=doppler, carrier_hz=carrier_hz, time_varying=time_varying)
     medium.check_rate(rs, beta)
+    band = getattr(medium, "bandwidth_hz", None)
+    if band is not None and rs * sps < band:
+        # the channel is applied at the simulation rate, which must cover its band
+        sps = 2 * int(math.ceil(band / (2 * rs)))
     q_known = medium.response(rs, beta, 2)
     plan = plan_receiver(q_known, receiver, algorithm=algorithm, n_ff=n_ff, n_fb=n_fb, sparse=sparse,
                          n_sparse=n_sparse, forgetting=forgetting, step=step_size)

@@ -178,7 +178,8 @@ def modem_required_snr_db(modulations, target_ber) -> np.ndarray:
     """
     from aculink.modem.ber import es_n0_for_ber
 
-    return np.array([10.0 * math.log10(es_n0_for_ber(m, target_ber)) for m in modulations])
+    with np.errstate(divide="ignore"):  # the bracket's far end underflows to BER 0; harmless
+        return np.array([10.0 * math.log10(es_n0_for_ber(m, target_ber)) for m in modulations])
 
 
 def evaluate_block(site, ranges_m, depths_m, grid: CandidateGrid, target_ber, margin_db) -> dict:

@@ -19,7 +19,8 @@ from aculink.planning.sweep import candidate_grid, check_geometry
 #: JSON/CSV keys of a table row, in order (dataset variable or coordinate of the same meaning).
 ROW_KEYS = ("range_m", "net_bit_rate_bps", "modulation", "symbol_rate_baud", "receiver",
             "snr_band_db", "snr_out_db", "ber_predicted", "margin_db", "spread_90_s", "tl_db")
-VERIFY_KEYS = ("ber_measured", "ber_measured_low", "ber_measured_high", "bits_measured", "verify_note")
+VERIFY_KEYS = ("ber_measured", "ber_measured_low", "ber_measured_high", "bits_measured",
+               "snr_out_measured_db", "verify_note")
 
 #: Monte Carlo length of a verification run: enough symbols to see BER near 1e-3 .. 1e-4.
 VERIFY_SYMBOLS = 20000
@@ -101,6 +102,7 @@ def verify_plan(site, ds, *, seed=0, n_symbols=VERIFY_SYMBOLS):
     n = ds.sizes["range"]
     measured = {k: np.full(n, np.nan) for k in ("ber_measured", "ber_measured_low", "ber_measured_high")}
     bits = np.zeros(n, dtype=np.int64)
+    snr_measured = np.full(n, np.nan)
     notes = np.full(n, "", dtype=object)
     chosen = np.nonzero(np.nan_to_num(ds["net_bit_rate_bps"].values) > 0)[0]
     z = float(ds.attrs["receiver_depth_m"])
@@ -115,12 +117,14 @@ def verify_plan(site, ds, *, seed=0, n_symbols=VERIFY_SYMBOLS):
             res = simulate_link(channel, symbol_rate_baud=float(ds["best_symbol_rate_baud"].values[i]),
                                 modulation=str(ds["best_modulation"].values[i]),
                                 receiver=str(ds["best_receiver"].values[i]), budget=budget,
+                                rolloff=site.modem.rolloff,
                                 n_symbols=int(n_symbols), max_errors=VERIFY_MAX_ERRORS,
                                 seed=int(seed) + int(i))
             measured["ber_measured"][i] = float(res.ber)
             measured["ber_measured_low"][i] = float(res.ber_low)
             measured["ber_measured_high"][i] = float(res.ber_high)
-            bits[i] = int(getattr(res, "bits", 0) or 0)
+            bits[i] = int(res.bits)
+            snr_measured[i] = float(res.snr_out_db)
             notes[i] = verify_note(float(ds["ber_predicted"].values[i]), res.ber, res.ber_low,
                                    res.ber_high, target)
     out = ds.copy()
@@ -130,6 +134,8 @@ def verify_plan(site, ds, *, seed=0, n_symbols=VERIFY_SYMBOLS):
     for key, values in measured.items():
         out[key] = ("range", values, {"units": "1", "long_name": attrs[key]})
     out["bits_measured"] = ("range", bits, {"units": "1", "long_name": "bits simulated"})
+    out["snr_out_measured_db"] = ("range", snr_measured, {"units": "dB", "long_name": "receiver output "
+                                  "SNR measured by Monte Carlo at the chosen configuration"})
     out["verify_note"] = ("range", notes, {"long_name": "disagreement between prediction and "
                                            "Monte Carlo (empty when they agree)"})
     out.attrs["verify_seed"] = int(seed)

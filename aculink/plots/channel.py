@@ -89,7 +89,7 @@ def _transfer_panel(ax, channel):
     ax.set_xlabel("frequency (kHz)")
     ax.set_ylabel("transfer function (dB re 1 m)")
     ax.set_title("Across the band")
-    ax.legend(loc="lower left")
+    ax.legend(loc="lower left", frameon=True, facecolor="white", framealpha=0.9, edgecolor="none")
 
 
 def _doppler_panel(ax, channel):
@@ -102,8 +102,13 @@ def _doppler_panel(ax, channel):
     ax.errorbar(rel, nu, yerr=channel.surface_doppler_spread_hz, fmt="none", ecolor=PALETTE[5], elinewidth=1.2,
                 capsize=2, label="surface spread (rms)")
     ax.scatter(rel, nu, s=size, color=PALETTE[3], zorder=3, label="path (area ~ amplitude)")
-    ax.axhline(0.0, color="#777777", lw=0.7)
+    lo = float(np.min(nu - channel.surface_doppler_spread_hz))
+    hi = float(np.max(nu + channel.surface_doppler_spread_hz))
+    pad = max(0.15 * (hi - lo), 0.5)
+    ax.set_ylim(lo - pad, hi + 2.5 * pad)
+    mean = float(np.sum(power * nu) / np.sum(power))
+    ax.axhline(mean, color="#777777", lw=0.7, ls=":", label=f"power-weighted mean {mean:.2f} Hz")
     ax.set_xlabel("delay after the first arrival (ms)")
     ax.set_ylabel("Doppler shift at the carrier (Hz)")
     ax.set_title("Delay-Doppler")
-    ax.legend(loc="upper right")
+    ax.legend(loc="upper left", fontsize=7.5, ncol=2)

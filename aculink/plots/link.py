@@ -48,13 +48,15 @@ def plot_link(result, path, *, site=None, channel=None, overwrite=False):
 
     ax = axes[2]
     ff = result.ff_taps
+    ref = max(float(np.max(np.abs(ff))), 1e-300)
     t_ff = np.arange(ff.size) / 2.0
-    ax.stem(t_ff, np.abs(ff), linefmt=PALETTE[0], markerfmt="o", basefmt=" ", label="feedforward (T/2)")
+    ax.stem(t_ff, np.abs(ff) / ref, linefmt=PALETTE[0], markerfmt="o", basefmt=" ", label="feedforward (T/2 spaced)")
     if result.fb_taps.size:
         t_fb = t_ff[-1] + result.fb_delays
-        ax.stem(t_fb, np.abs(result.fb_taps), linefmt=PALETTE[1], markerfmt="s", basefmt=" ",
-                label="feedback (past symbols)")
-    ax.set(xlabel="tap position, symbols", ylabel="|tap|", title="Equalizer taps (last frame)")
+        ax.stem(t_fb, np.abs(result.fb_taps) / ref, linefmt=PALETTE[1], markerfmt="s", basefmt=" ",
+                label="feedback (symbol spaced, after the window)")
+    ax.set(xlabel="tap position, symbols from the window start", ylabel="|tap| / largest feedforward tap",
+           title="Equalizer taps (last frame)")
     ax.legend(loc="upper right")
     name = site_title(site) if site is not None else (getattr(channel, "name", "") or "channel")
     geo = getattr(channel, "geometry", {}) or {}

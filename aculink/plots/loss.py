@@ -51,7 +51,7 @@ def plot_loss(site, tl, path=None, *, incoherent=False, overwrite: bool = True, 
         ax.plot(rx.range_m / 1e3, rx.depth_m, "v", ms=8, color=PALETTE[3], mec="black", mew=0.5, zorder=6)
     ax.set_ylabel("depth (m)")
     ax.grid(False)
-    detail = geometry_text(zs) + f", {tl.attrs['frequency_hz'] / 1000:g} kHz"
+    detail = geometry_text(zs, rx.range_m, rx.depth_m) + f"; {tl.attrs['frequency_hz'] / 1000:g} kHz"
     fig.suptitle(site_title(site, detail), fontweight="bold", fontsize=10.5)
     if path is None:
         return fig

@@ -13,7 +13,7 @@ __all__ = ["plot_rays", "HISTORY_CLASSES"]
 
 #: Colour classes by boundary history, Okabe-Ito colours.
 HISTORY_CLASSES = (("refracted only", PALETTE[0]), ("surface only", PALETTE[2]),
-                   ("seabed only", PALETTE[1]), ("surface and seabed", PALETTE[7]))
+                   ("seabed only", PALETTE[1]), ("surface and seabed", PALETTE[5]))
 
 
 def _history_class(n_surface, n_bottom):
@@ -68,7 +68,8 @@ def plot_rays(site, fan, path=None, *, colour_by="bounces", overwrite: bool = Tr
     c = site.water.profile.speed(z)
     ax_c.plot(c, z, color=PALETTE[0])
     span = max(float(np.ptp(c)), 4.0)
-    ax_c.set_xlim(float(np.mean(c)) - 0.62 * span, float(np.mean(c)) + 0.62 * span)
+    mid = 0.5 * (float(np.min(c)) + float(np.max(c)))
+    ax_c.set_xlim(mid - 0.62 * span, mid + 0.62 * span)
     ax_c.xaxis.set_major_locator(MaxNLocator(4))
     ax_c.set_xlabel("sound speed (m/s)")
     ax_c.set_ylabel("depth (m)")
@@ -79,18 +80,23 @@ def plot_rays(site, fan, path=None, *, colour_by="bounces", overwrite: bool = Tr
     d = fan.depth_m.values
     segs = [np.column_stack([ri[np.isfinite(ri)], di[np.isfinite(ri)]]) for ri, di in zip(r, d)]
     n = len(segs)
-    lw = 0.9 if n <= 60 else 0.6 if n <= 200 else 0.35
+    lw = 0.9 if n <= 40 else 0.55 if n <= 150 else 0.3
+    alpha = 0.9 if n <= 40 else 0.6 if n <= 150 else 0.4
     if colour_by == "angle":
         norm = plt.Normalize(float(fan.launch_angle_deg.min()), float(fan.launch_angle_deg.max()))
-        lc = LineCollection(segs, cmap="cividis", norm=norm, linewidths=lw, zorder=2)
+        lc = LineCollection(segs, cmap="cividis", norm=norm, linewidths=lw, alpha=alpha, zorder=2)
         lc.set_array(fan.launch_angle_deg.values)
         ax_s.add_collection(lc)
         fig.colorbar(lc, ax=ax_s, label="launch angle (deg below horizontal)", shrink=0.85, pad=0.01)
         handles = []
     else:
         cls = _history_class(fan.surface_bounces.values, fan.bottom_bounces.values)
-        colours = [HISTORY_CLASSES[k][1] for k in cls]
-        ax_s.add_collection(LineCollection(segs, colors=colours, linewidths=lw, alpha=0.85, zorder=2))
+        # the rays that met both boundaries go underneath, the rarer classes on top
+        for k in (3, 2, 1, 0):
+            pick = [seg for seg, kk in zip(segs, cls) if kk == k]
+            if pick:
+                ax_s.add_collection(LineCollection(pick, colors=HISTORY_CLASSES[k][1], linewidths=lw, alpha=alpha,
+                                                   zorder=2))
         handles = [Line2D([], [], color=col, lw=1.6, label=f"{name} ({int(np.sum(cls == k))})")
                    for k, (name, col) in enumerate(HISTORY_CLASSES) if np.any(cls == k)]
     zs = float(fan.attrs["source_depth_m"])
@@ -106,7 +112,7 @@ def plot_rays(site, fan, path=None, *, colour_by="bounces", overwrite: bool = Tr
     handles.append(Line2D([], [], color=SEABED_COLOUR, lw=6, label=site.seabed.sediment or "seabed"))
     fig.legend(handles=handles, loc="outside lower center", ncol=min(len(handles), 6), fontsize=7.5)
     angles = fan.launch_angle_deg.values
-    detail = geometry_text(zs) + f", {n} rays {angles.min():g} to {angles.max():g} deg"
+    detail = geometry_text(zs, rx.range_m, rx.depth_m) + f"; {n} rays, {angles.min():g} to {angles.max():g} deg"
     fig.suptitle(site_title(site, detail), fontweight="bold", fontsize=10.5)
     if path is None:
         return fig

@@ -42,7 +42,6 @@ from __future__ import annotations
 import math
 
 import numpy as np
-import xarray as xr
 
 from aculink.errors import AculinkError, check_range
 from aculink.propagation import _kernels as _k
@@ -55,6 +54,8 @@ PRUNE_MARGIN_DB = 10.0
 #: Default eigenray fan: widest launch angle, deg, and the coarsest spacing, deg.
 FAN_HALF_WIDTH_DEG = 80.0
 FAN_MAX_SPACING_DEG = 0.1
+#: Pruned candidates whose predicted launch angles differ by less than this are counted once, rad.
+DUPLICATE_ANGLE_RAD = 1e-4
 #: Fan gap refinement: rays added per suspicious gap, and rounds.
 GAP_RAYS = 3
 GAP_ROUNDS = 3
@@ -91,6 +92,44 @@ def _refine_gaps(medium, thetas, rec, info, zs, r_sorted, r_max, budget):
         rec = np.concatenate([rec, rec_n])[order]
         info = np.concatenate([info, info_n])[order]
     return np.ascontiguousarray(thetas), np.ascontiguousarray(rec), info
+
+
+def _interpolate_straddles(cand, thetas, rec, depths):
+    """Eigenrays interpolated inside same-history straddles (no re-shooting).
+
+    The launch angle is the root of the cubic Hermite interpolant of z(theta0) built from the two
+    rays' depths and dynamic-ray derivatives (Newton, 6 steps); the record columns are interpolated
+    linearly at that angle, and the delay is integrated along the receiver's vertical from each ray,
+    tau = t + (z_r - z)(zeta + zeta_r)/2, weighted by closeness.
+    """
+    j = cand[:, _ke.C_RANGE].astype(int)
+    k = cand[:, _ke.C_DEPTH].astype(int)
+    lo = cand[:, _ke.C_LO].astype(int)
+    a, b = rec[lo, j], rec[lo + 1, j]
+    span = thetas[lo + 1] - thetas[lo]
+    za, zb = a[:, _k.R_Z], b[:, _k.R_Z]
+
+    def dzdt(r):
+        return r[:, _k.R_DZ] - r[:, _k.R_ZETA] / r[:, _k.R_XI] * r[:, _k.R_DX]
+
+    ma, mb = dzdt(a) * span, dzdt(b) * span
+    zr = depths[k]
+    dz = zb - za
+    w = np.clip(np.where(dz != 0.0, (zr - za) / np.where(dz != 0.0, dz, 1.0), 0.5), 0.0, 1.0)
+    for _ in range(6):
+        w2, w3 = w * w, w * w * w
+        z = (2 * w3 - 3 * w2 + 1) * za + (w3 - 2 * w2 + w) * ma + (-2 * w3 + 3 * w2) * zb + (w3 - w2) * mb
+        d = (6 * w2 - 6 * w) * za + (3 * w2 - 4 * w + 1) * ma + (-6 * w2 + 6 * w) * zb + (3 * w2 - 2 * w) * mb
+        w = np.clip(w - np.where(d != 0.0, (z - zr) / np.where(d != 0.0, d, 1.0), 0.0), 0.0, 1.0)
+    rows = a + w[:, None] * (b - a)
+    zeta_r = rows[:, _k.R_ZETA]
+    ta = a[:, _k.R_T] + (zr - za) * 0.5 * (a[:, _k.R_ZETA] + zeta_r)
+    tb = b[:, _k.R_T] + (zr - zb) * 0.5 * (b[:, _k.R_ZETA] + zeta_r)
+    rows[:, _k.R_T] = (1.0 - w) * ta + w * tb
+    rows[:, _k.R_Z] = zr
+    for col in (_k.R_NS, _k.R_NB, _k.R_NC):
+        rows[:, col] = a[:, col]
+    return j, k, rows, thetas[lo] + w * span
 
 
 def _check_receivers(site, ranges_m, depths_m):
@@ -134,7 +173,7 @@ def _surface_factor(site, sin2, n_surface, freq_hz, c_surface):
 
 
 def find_arrivals(site, ranges_m=None, depths_m=None, freq_hz=None, *, source_depth_m=None, angles_deg=None,
-                  dynamic_range_db=40.0, tolerance_m=0.1, bottom_reflection=None, step_m=None) -> xr.Dataset:
+                  dynamic_range_db=40.0, tolerance_m=0.1, bottom_reflection=None, step_m=None, refine="shoot"):
     """Eigenrays from the source to every receiver on a range x depth grid.
 
     Parameters
@@ -158,6 +197,12 @@ def find_arrivals(site, ranges_m=None, depths_m=None, freq_hz=None, *, source_de
         ``f(grazing_rad) -> complex`` seabed coefficient (default Rayleigh from the site).
     step_m : float, optional
         Arc-length step of the integrator, m.
+    refine : {"shoot", "interpolate"}
+        "shoot" (default) re-shoots every eigenray until the depth miss is below ``tolerance_m``.
+        "interpolate" is for large receiver grids: eigenrays inside a straddle are interpolated
+        between its two fan rays (cubic Hermite root for the launch angle, the delay integrated
+        along the wavefront, the rest linear; absorption scaled from the fan's frequency) and only
+        branch-edge eigenrays are re-shot. Its miss is not measured; see the tests for its accuracy.
 
     Returns
     -------
@@ -184,6 +229,22 @@ def find_arrivals(site, ranges_m=None, depths_m=None, freq_hz=None, *, source_de
     >>> arr = find_arrivals(site, 2000.0, 30.0)          # doctest: +SKIP
     >>> arr.delay_s.isel(range=0, depth=0).values        # doctest: +SKIP
     """
+    import xarray as xr
+
+    variables, coords, attrs = solve_arrivals(site, ranges_m, depths_m, freq_hz, source_depth_m=source_depth_m,
+                                              angles_deg=angles_deg, dynamic_range_db=dynamic_range_db,
+                                              tolerance_m=tolerance_m, bottom_reflection=bottom_reflection,
+                                              step_m=step_m, refine=refine)
+    return xr.Dataset(variables, coords=coords, attrs=attrs)
+
+
+def solve_arrivals(site, ranges_m=None, depths_m=None, freq_hz=None, *, source_depth_m=None, angles_deg=None,
+                   dynamic_range_db=40.0, tolerance_m=0.1, bottom_reflection=None, step_m=None, refine="shoot"):
+    """The work of :func:`find_arrivals`, returned as plain ``(variables, coords, attrs)``.
+
+    ``variables`` and ``coords`` map names to ``(dims, numpy array, attrs)``; the command line reads
+    them directly, which keeps xarray (and the modules it pulls in) out of its start-up time.
+    """
     zs = check_source_depth(site, source_depth_m)
     ranges, depths = _check_receivers(site, ranges_m, depths_m)
     freqs = np.atleast_1d(np.asarray(site.modem.carrier_hz if freq_hz is None else freq_hz, dtype=float)).ravel()
@@ -191,6 +252,8 @@ def find_arrivals(site, ranges_m=None, depths_m=None, freq_hz=None, *, source_de
         check_range("freq_hz", f, 0.0, 1.0e6, low_open=True, unit="Hz")
     dyn = check_range("dynamic_range_db", dynamic_range_db, 0.0, 300.0, unit="dB")
     tol = check_range("tolerance_m", tolerance_m, 0.0, 10.0, low_open=True, unit="m")
+    if refine not in ("shoot", "interpolate"):
+        raise AculinkError(f"refine = {refine!r}: expected 'shoot' or 'interpolate'")
     order = np.argsort(ranges)
     r_sorted = ranges[order]
     r_max = float(r_sorted[-1])
@@ -233,23 +296,36 @@ def find_arrivals(site, ranges_m=None, depths_m=None, freq_hz=None, *, source_de
     pruned = cand[~keep]
     cand = np.ascontiguousarray(cand[keep])
 
-    # refinement
-    m = cand.shape[0]
-    out_rec = np.full((m, _k.N_RECORD), np.nan)
+    # refinement: re-shooting, or (refine="interpolate") Hermite interpolation inside straddles
     edges = depth_bin_edges(site)
+    alpha = absorption_table_db_per_m(site, freqs, edges)  # (F, B)
+    interp = np.zeros(cand.shape[0], dtype=bool)
+    if refine == "interpolate":
+        interp = cand[:, _ke.C_KIND] == _ke.KIND_STRADDLE
+    shoot = np.ascontiguousarray(cand[~interp])
+    m = shoot.shape[0]
+    out_rec = np.full((m, _k.N_RECORD), np.nan)
     out_bins = np.zeros((m, edges.size - 1))
     out_theta = np.zeros(m)
     out_ok = np.zeros(m, dtype=np.bool_)
-    _ke.refine_all(cand, thetas, rec, depths, r_sorted, zs, *medium.kernel_args(), medium.step_m, budget,
+    _ke.refine_all(shoot, thetas, rec, depths, r_sorted, zs, *medium.kernel_args(), medium.step_m, budget,
                    medium.floor_mag, tol, out_rec, out_bins, out_theta, out_ok)
-    ok = out_ok
-    jj, kk = cand[ok, _ke.C_RANGE].astype(int), cand[ok, _ke.C_DEPTH].astype(int)
-    rows, bins, th = out_rec[ok], out_bins[ok], out_theta[ok]
+    jj = shoot[out_ok, _ke.C_RANGE].astype(int)
+    kk = shoot[out_ok, _ke.C_DEPTH].astype(int)
+    rows, th = out_rec[out_ok], out_theta[out_ok]
+    absorption = out_bins[out_ok] @ alpha.T  # (n, F)
+    if interp.any():
+        ij, ik, irows, ith = _interpolate_straddles(cand[interp], thetas, rec, depths)
+        # absorption scaled from the fan's frequency by the depth-averaged ratio of the coefficients
+        ratio = alpha.mean(axis=1) / max(alpha[int(np.argmin(freqs))].mean(), 1e-300)
+        jj, kk = np.r_[jj, ij], np.r_[kk, ik]
+        rows, th = np.vstack([rows, irows]), np.r_[th, ith]
+        absorption = np.vstack([absorption, irows[:, _k.R_ABS, None] * ratio[None, :]])
 
     # merge duplicates: same receiver and history, launch angles within the tolerance's angular width
     hist = rows[:, [_k.R_NS, _k.R_NB, _k.R_NC]].astype(int)
     srt = np.lexsort((th, hist[:, 2], hist[:, 1], hist[:, 0], kk, jj))
-    jj, kk, rows, bins, th, hist = jj[srt], kk[srt], rows[srt], bins[srt], th[srt], hist[srt]
+    jj, kk, rows, absorption, th, hist = jj[srt], kk[srt], rows[srt], absorption[srt], th[srt], hist[srt]
     dzdt = np.abs(rows[:, _k.R_DZ] - rows[:, _k.R_ZETA] / rows[:, _k.R_XI] * rows[:, _k.R_DX])
     width = np.maximum(1e-9, 4.0 * tol / np.maximum(dzdt, 1e-30))
     dup = np.zeros(th.size, dtype=bool)
@@ -257,15 +333,13 @@ def find_arrivals(site, ranges_m=None, depths_m=None, freq_hz=None, *, source_de
         same = (jj[1:] == jj[:-1]) & (kk[1:] == kk[:-1]) & np.all(hist[1:] == hist[:-1], axis=1)
         dup[1:] = same & (np.abs(th[1:] - th[:-1]) <= np.maximum(width[1:], width[:-1]))
     keep = ~dup
-    jj, kk, rows, bins, th, hist = jj[keep], kk[keep], rows[keep], bins[keep], th[keep], hist[keep]
+    jj, kk, rows, absorption, th, hist = jj[keep], kk[keep], rows[keep], absorption[keep], th[keep], hist[keep]
 
     # physical quantities
     zr = depths[kk]
     r_of = r_sorted[jj]
     delay = rows[:, _k.R_T] + rows[:, _k.R_ZETA] * (zr - rows[:, _k.R_Z])
     spread = _spreading(rows, np.cos(th), c0, r_of)
-    alpha = absorption_table_db_per_m(site, freqs, edges)  # (F, B)
-    absorption = bins @ alpha.T  # (n, F)
     surface = _surface_factor(site, rows[:, _k.R_SIN2], hist[:, 0], freqs, medium.surface_speed_mps)
     bottom = rows[:, _k.R_BRE] + 1j * rows[:, _k.R_BIM]
     caustic = np.exp(0.5j * np.pi * hist[:, 2])
@@ -279,14 +353,17 @@ def find_arrivals(site, ranges_m=None, depths_m=None, freq_hz=None, *, source_de
     n_dropped = np.zeros((n_r, n_z), dtype=int)
     np.add.at(n_dropped, (jj[~strong], kk[~strong]), 1)
     if pruned.size:
+        # distinct pruned eigenrays: by receiver, history and predicted launch angle
         pj = pruned[:, _ke.C_RANGE].astype(int)
         pk = pruned[:, _ke.C_DEPTH].astype(int)
-        ph = rec[pruned[:, _ke.C_FROM].astype(int), pj][:, [_k.R_NS, _k.R_NB, _k.R_NC]].astype(int)
-        keys = np.unique(np.column_stack([pj, pk, ph]), axis=0)
-        found = {tuple(v) for v in np.column_stack([jj, kk, hist])}
-        for key in keys:
-            if tuple(key) not in found:
-                n_dropped[key[0], key[1]] += 1
+        prow = rec[pruned[:, _ke.C_FROM].astype(int), pj]
+        ph = prow[:, [_k.R_NS, _k.R_NB, _k.R_NC]].astype(int)
+        pth = thetas[pruned[:, _ke.C_FROM].astype(int)] + (depths[pk] - prow[:, _k.R_Z]) / (
+            prow[:, _k.R_DZ] - prow[:, _k.R_ZETA] / prow[:, _k.R_XI] * prow[:, _k.R_DX])
+        o = np.lexsort((pth, ph[:, 2], ph[:, 1], ph[:, 0], pk, pj))
+        key = np.column_stack([pj, pk, ph])[o]
+        new = np.r_[True, np.any(key[1:] != key[:-1], axis=1) | (np.diff(pth[o]) > DUPLICATE_ANGLE_RAD)]
+        np.add.at(n_dropped, (pj[o][new], pk[o][new]), 1)
     sel = strong
     jj, kk, rows, th, hist = jj[sel], kk[sel], rows[sel], th[sel], hist[sel]
     delay, amp, absorption = delay[sel], amp[sel], absorption[sel]
@@ -316,8 +393,6 @@ def find_arrivals(site, ranges_m=None, depths_m=None, freq_hz=None, *, source_de
     def back(a):
         return a[inv]
 
-    for (j, k) in zip(*np.nonzero(counts == 0)):
-        reasons.setdefault(j, None)
     empty = counts == 0
     attrs = {"site": site.name, "source_depth_m": zs, "dynamic_range_db": dyn, "tolerance_m": tol,
              "title": "eigenray arrivals"}
@@ -330,7 +405,7 @@ def find_arrivals(site, ranges_m=None, depths_m=None, freq_hz=None, *, source_de
     int_attrs = {"units": "1", "comment": "-1 marks padding"}
     dims3 = ("range", "depth", "arrival")
     dims4 = dims3 + ("frequency",)
-    ds = xr.Dataset(
+    return (
         {
             "delay_s": (dims3, back(fill(delay, np.nan)), {"units": "s", "long_name": "travel time from the source"}),
             "amplitude": (dims4, back(fill(amp, 0.0, complex)), {
@@ -351,12 +426,11 @@ def find_arrivals(site, ranges_m=None, depths_m=None, freq_hz=None, *, source_de
             "n_dropped": (("range", "depth"), back(n_dropped), {
                 "units": "1", "long_name": "arrivals dropped below the dynamic range"}),
         },
-        coords={
+        {
             "range": ("range", ranges, {"units": "m", "long_name": "receiver range"}),
             "depth": ("depth", depths, {"units": "m", "long_name": "receiver depth", "positive": "down"}),
             "arrival": ("arrival", np.arange(n_a), {"long_name": "arrival index, by delay"}),
             "frequency": ("frequency", freqs, {"units": "Hz", "long_name": "frequency"}),
         },
-        attrs=attrs,
+        attrs,
     )
-    return ds

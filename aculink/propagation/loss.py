@@ -22,7 +22,6 @@ F. B. Jensen, W. A. Kuperman, M. B. Porter and H. Schmidt, Computational Ocean A
 from __future__ import annotations
 
 import numpy as np
-import xarray as xr
 
 from aculink.errors import AculinkError, check_range
 from aculink.propagation import _kernels as _k
@@ -50,7 +49,7 @@ def _grid(site, ranges_m, depths_m):
 
 
 def transmission_loss(site, ranges_m, depths_m, freq_hz=None, *, source_depth_m=None, angles_deg=None,
-                      bottom_reflection=None, step_m=None) -> xr.Dataset:
+                      bottom_reflection=None, step_m=None):
     """Coherent and incoherent transmission loss on a range x depth grid.
 
     Parameters
@@ -84,6 +83,8 @@ def transmission_loss(site, ranges_m, depths_m, freq_hz=None, *, source_depth_m=
     ----------
     M. B. Porter and H. P. Bucker, J. Acoust. Soc. Am. 82(4), 1349-1359 (1987).
     """
+    import xarray as xr
+
     zs = check_source_depth(site, source_depth_m)
     ranges, depths = _grid(site, ranges_m, depths_m)
     freq = check_range("freq_hz", site.modem.carrier_hz if freq_hz is None else freq_hz, 0.0, 1.0e6,

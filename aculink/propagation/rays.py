@@ -34,7 +34,6 @@ import math
 from dataclasses import dataclass
 
 import numpy as np
-import xarray as xr
 
 from aculink.errors import AculinkError, check_range
 from aculink.propagation import _kernels as _k
@@ -208,7 +207,7 @@ def run_fan(medium: Medium, thetas_rad, zs, rec_r, r_max, *, path_points=0, max_
 
 
 def trace_rays(site, source_depth_m=None, angles_deg=None, max_range_m=None, *, bottom_reflection=None,
-               step_m=None) -> xr.Dataset:
+               step_m=None):
     """Trace a fan of rays through the site and return their paths.
 
     Parameters
@@ -249,6 +248,8 @@ def trace_rays(site, source_depth_m=None, angles_deg=None, max_range_m=None, *, 
     >>> fan = trace_rays(site, angles_deg=np.linspace(-20, 20, 41))  # doctest: +SKIP
     >>> fan.range_m.sel(ray=0).max()                                  # doctest: +SKIP
     """
+    import xarray as xr
+
     zs = check_source_depth(site, source_depth_m)
     angles = check_angles(np.linspace(*DEFAULT_FAN_DEG[:2], DEFAULT_FAN_DEG[2]) if angles_deg is None
                           else angles_deg)

@@ -76,8 +76,12 @@ def kernel_inputs(ch, x, seed=0, t0=0.0):
     """The arrays apply_channel hands the kernel (same code path, split so it can be timed)."""
     taps, lag = prefilter(ch, FS)
     k, c = farrow_coefficients()
-    combined = signal.oaconvolve(np.broadcast_to(taps, (c.shape[0], taps.size)), c[:, ::-1], axes=1)
-    br = signal.oaconvolve(np.broadcast_to(x, (c.shape[0], x.size)), combined, axes=1)
+    u = signal.oaconvolve(x, taps)
+    vr = np.empty((c.shape[0], u.size + c.shape[1] - 1))
+    vi = np.empty_like(vr)
+    _kernels.farrow_branches(np.ascontiguousarray(u.real), c, vr)
+    _kernels.farrow_branches(np.ascontiguousarray(u.imag), c, vi)
+    br = vr + 1j * vi
     lead = taps.size + 16
     first, n_out = _output_grid(ch, x.size, FS, t0, lead)
     block = control_block(ch, FS)

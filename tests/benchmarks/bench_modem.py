@@ -6,6 +6,8 @@ Run: ``cd /work/main && /work/venv/bin/python tests/benchmarks/bench_modem.py``
 2. NLMS DFE, 64 taps: symbols/s (target >= 2,000,000).
 3. Sparse DFE on a 200-symbol-span channel: 40 active feedback taps against the full 200-tap
    span (target: >= 5x faster, MSE loss <= 0.5 dB).
+4. predict_link over one bundled site channel, 8 symbol rates x 5 modulations x 3 receivers
+   (the planner's table needs 24 such channels: target a few seconds in all).
 Each figure is printed with its ratio to a plain numpy implementation of the same recursion.
 """
 
@@ -125,5 +127,32 @@ def main():
           f"sparse {mse_sp:.2f} dB, loss {loss:+.2f} dB (target <= 0.5: {'met' if loss <= 0.5 else 'MISSED'})")
 
 
+def bench_predict():
+    from pathlib import Path
+
+    from aculink.channel import channel_for_site, link_budget
+    from aculink.modem import MODULATIONS, predict_link
+    from aculink.site.loader import load_site
+
+    site = load_site(Path(__file__).resolve().parents[2] / "environments" / "shelf_summer.toml")
+    ch = channel_for_site(site)
+    b = link_budget(site, ch)
+    rates = np.linspace(500, 4800, 8)
+    predict_link(ch, b, 4800.0, "qpsk", "dfe")  # compile the design kernels
+    from aculink.modem import predict as _p
+
+    _p._CACHE.clear()
+    _p._MEDIA.clear()
+    t = time.perf_counter()
+    for rs in rates:
+        for rx in ("none", "linear", "dfe"):
+            for mod in MODULATIONS:
+                predict_link(ch, b, float(rs), mod, rx)
+    dt = time.perf_counter() - t
+    print(f"predict_link: 120 predictions on one site channel in {dt:.2f} s; a 24-range table "
+          f"~ {24 * dt:.1f} s (target: a few seconds: {'met' if 24 * dt <= 5 else 'MISSED'})")
+
+
 if __name__ == "__main__":
     main()
+    bench_predict()

@@ -73,3 +73,22 @@ def test_rls_long_run_stays_hermitian_and_finite(rng):
     assert restarts == 0
     assert np.all(np.isfinite(out[3]))
     assert np.mean(out[3][-5000:]) < 2 * np.mean(out[3][5000:10000])
+
+
+def test_gram_update_and_cholesky_match_numpy_scipy(rng):
+    """Computed: the single-threaded design kernels agree with numpy (c c^H) and
+    scipy.linalg.cho_solve to 1e-10, and report a matrix that is not positive definite."""
+    import scipy.linalg
+
+    n, k = 24, 9
+    c = rng.standard_normal((n, k)) + 1j * rng.standard_normal((n, k))
+    a = rng.standard_normal((n, 3 * n)) + 1j * rng.standard_normal((n, 3 * n))
+    base = a @ a.conj().T + np.eye(n)
+    out = np.empty((n, n), complex)
+    _kernels.gram_update(base, c, out)
+    np.testing.assert_allclose(out, base - c @ c.conj().T, atol=1e-10)
+    b = rng.standard_normal(n) + 1j * rng.standard_normal(n)
+    x = np.empty(n, complex)
+    assert _kernels.cholesky_solve(base.copy(), b, x)
+    np.testing.assert_allclose(x, scipy.linalg.cho_solve(scipy.linalg.cho_factor(base), b), atol=1e-10)
+    assert not _kernels.cholesky_solve(-np.eye(3) + 0j, np.ones(3, complex), np.empty(3, complex))

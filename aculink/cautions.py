@@ -1,0 +1,6 @@
+"""The caution every high-level output carries, in one place."""
+
+#: One line for tables, summaries and reports a reader acts on.
+CAUTION = ("Planning estimate only, not a substitute for sea trials. Sound in water can harm marine "
+           "mammals, fish and divers; many waters need a permit for acoustic emission. Follow local "
+           "regulations and licensed practice before transmitting.")

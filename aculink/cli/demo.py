@@ -1,0 +1,257 @@
+"""``aculink demo``: the whole chain on a bundled site, written into one folder with a page.
+
+Site summary, ray fan, arrivals, impulse response, receivers compared by BER against SNR, the
+range-versus-rate table and a small range x depth sweep; then ``index.html`` showing them all
+and a two-line conclusion. The steps call the same library functions as the other commands.
+"""
+
+from __future__ import annotations
+
+import sys
+import time
+from pathlib import Path
+
+DEFAULT_SITE = "shelf_summer"
+DEFAULT_OUT = "aculink-demo"
+
+
+def register(subparsers) -> None:
+    p = subparsers.add_parser(
+        "demo", help="run the whole chain on a bundled site and write a folder of results with index.html",
+        description="Runs site -> rays -> arrivals -> channel -> receivers -> range-versus-rate table -> "
+        "range x depth sweep on a bundled example site, writes pictures, tables, NetCDF and an "
+        "index.html page into the output folder, and prints a short conclusion. Planning "
+        "estimates only.")
+    p.add_argument("--out", default=DEFAULT_OUT, metavar="DIR", help=f"output folder (default ./{DEFAULT_OUT})")
+    p.add_argument("--site", default=DEFAULT_SITE, metavar="NAME",
+                   help=f"bundled site to run on (default {DEFAULT_SITE}); see environments/")
+    p.add_argument("--overwrite", action="store_true", help="write into an existing, non-empty folder")
+    p.add_argument("--seed", type=int, default=0, help="seed of the Monte Carlo runs (default 0)")
+    p.set_defaults(func=run)
+
+
+def prepare_folder(out: Path, overwrite: bool) -> Path:
+    from aculink.errors import AculinkError
+
+    if out.exists() and not out.is_dir():
+        raise AculinkError(f"--out {out} exists and is not a folder")
+    if out.is_dir() and any(out.iterdir()) and not overwrite:
+        raise AculinkError(f"--out {out} exists and is not empty: pass --overwrite or choose another folder")
+    try:
+        out.mkdir(parents=True, exist_ok=True)
+    except OSError as exc:
+        raise AculinkError(f"--out {out}: cannot create the folder ({exc.strerror})") from None
+    return out
+
+
+def run(args) -> int:
+    from aculink.cautions import CAUTION
+    from aculink.io.report import write_index
+    from aculink.site.bundled import bundled_site_path
+    from aculink.site.loader import load_site
+
+    out = prepare_folder(Path(args.out), args.overwrite)
+    site = load_site(bundled_site_path(args.site))
+    started = time.perf_counter()
+    sections = []
+    for step in (step_site, step_rays, step_arrivals, step_channel, step_plan, step_receivers, step_sweep):
+        t0 = time.perf_counter()
+        new = step(site, out, args, sections)
+        sections.extend(new)
+        print(f"  {step.__name__.removeprefix('step_'):<10} {time.perf_counter() - t0:5.1f} s  "
+              + ", ".join(name for _, _, name in new), file=sys.stderr)
+    text = conclusion(site, out)
+    write_index(out, f"aculink demo: {site.name}", sections, conclusion=text, caution=CAUTION)
+    print(f"Wrote {len(sections) + 1} files into {out}/ in {time.perf_counter() - started:.0f} s:")
+    for heading, _, name in sections:
+        print(f"  {name:<22} {heading}")
+    print(f"  {'index.html':<22} all of the above on one page")
+    print()
+    print(text)
+    print(f"Caution: {CAUTION}")
+    return 0
+
+
+# Each step writes its files and returns (heading, one-line explanation, file name) per file.
+
+def step_site(site, out, args, done):
+    from aculink.io.atomic import write_text_atomic
+    from aculink.plots.site import plot_site
+    from aculink.site.summary import format_summary, summarize_site
+
+    write_text_atomic(out / "site_summary.txt", format_summary(summarize_site(site)) + "\n")
+    plot_site(site, out / "site.png")
+    return [("Site summary", "What aculink read from the site file: profile, seabed, surface, absorption, "
+             "noise, equipment and band; check it before trusting anything else", "site_summary.txt"),
+            ("Profile and track", "Sound speed against depth beside the seabed along the track, with the "
+             "source and receiver", "site.png")]
+
+
+def step_rays(site, out, args, done):
+    import numpy as np
+
+    from aculink.plots.rays import plot_rays
+    from aculink.propagation import trace_rays
+
+    fan = trace_rays(site, angles_deg=np.linspace(-15.0, 15.0, 61), max_range_m=site.receiver.range_m * 1.25)
+    plot_rays(site, fan, out / "rays.png")
+    return [("Ray fan", "Rays launched every half degree from the source, coloured by bounce history: "
+             "how the profile bends sound and where it meets the boundaries", "rays.png")]
+
+
+def step_arrivals(site, out, args, done):
+    from aculink.cli.arrivals import arrivals_table, format_table
+    from aculink.io.atomic import write_text_atomic
+    from aculink.io.tables import write_csv
+    from aculink.propagation import find_arrivals
+
+    table = arrivals_table(find_arrivals(site))
+    write_text_atomic(out / "arrivals.txt", format_table(table) + "\n")
+    keys = list(table["arrivals"][0]) if table["arrivals"] else ["delay_s"]
+    write_csv(out / "arrivals.csv", keys, table["arrivals"])
+    return [("Eigenrays at the receiver", "Every significant path: delay after the first arrival, level "
+             "(dB re 1 m), phase, angles and bounces", "arrivals.txt"),
+            ("Eigenrays (CSV)", "The same arrivals for a spreadsheet or script", "arrivals.csv")]
+
+
+def step_channel(site, out, args, done):
+    from aculink.channel import channel_for_site, link_budget
+    from aculink.cli.channel import format_report, report
+    from aculink.io.atomic import write_text_atomic
+    from aculink.plots.channel import plot_channel
+
+    channel = channel_for_site(site)
+    budget = link_budget(site, channel)
+    write_text_atomic(out / "channel.txt", format_report(report(site, channel, budget)) + "\n")
+    plot_channel(channel, out / "channel.png", site=site)
+    args._channel, args._budget = channel, budget
+    return [("Channel and link budget", "Delay spread, coherence bandwidth, transmission loss, noise and "
+             "the sonar-equation SNR in the band", "channel.txt"),
+            ("Impulse and frequency response", "What the modem sees: the baseband impulse response with each "
+             "arrival labelled by its surface (S) and seabed (B) bounces, and |H(f)| over the band",
+             "channel.png")]
+
+
+def step_plan(site, out, args, done):
+    import numpy as np
+
+    from aculink.cli.plan import display_row, heading, table_columns
+    from aculink.io.atomic import write_text_atomic
+    from aculink.io.tables import format_table, write_csv
+    from aculink.planning.table import ROW_KEYS, plan_rates, plan_rows
+    from aculink.plots.plan import plot_plan
+
+    stop = min(10000.0, site.seabed.max_range_m)
+    ranges = np.arange(500.0, stop + 1.0, 500.0)
+    ds = plan_rates(site, ranges)
+    rows = plan_rows(ds)
+    text = heading(site, ds) + "\n" + format_table(table_columns(False), [display_row(r) for r in rows])
+    write_text_atomic(out / "plan.txt", text + "\n")
+    write_csv(out / "plan.csv", ROW_KEYS + ("error",), rows)
+    plot_plan(ds, site, out / "plan.png")
+    args._plan = ds
+    return [("Range-versus-rate table", "At each range the highest net bit rate whose predicted BER meets "
+             "the target with the margin to spare, and how it is reached", "plan.txt"),
+            ("Range-versus-rate table (CSV)", "The same table for machines", "plan.csv"),
+            ("Rate against range", "Best net bit rate per receiver against range, with the rate x range "
+             "envelope of fielded systems as a dashed reference", "plan.png")]
+
+
+def step_receivers(site, out, args, done):
+    import numpy as np
+    import xarray as xr
+
+    from aculink.plots.ber import plot_ber_curves
+    from aculink.plots.style import geometry_text
+    from aculink.modem import simulate_link
+
+    channel = args._channel
+    rate = demo_symbol_rate(site, args._plan)
+    snrs = np.arange(4.0, 29.0, 4.0)
+    receivers = ["none", "linear", "dfe"]
+    names = ("ber", "ber_low", "ber_high", "ber_predicted")
+    data = {k: np.zeros((len(receivers), snrs.size)) for k in names}
+    for i, rx in enumerate(receivers):
+        for j, snr in enumerate(snrs):
+            r = simulate_link(channel, symbol_rate_baud=rate, modulation="qpsk", receiver=rx, snr_db=float(snr),
+                              rolloff=site.modem.rolloff, n_symbols=6000, max_errors=150,
+                              seed=args.seed + 100 * i + j)
+            for k in names:
+                data[k][i, j] = getattr(r, k)
+    curves = xr.Dataset({k: (("receiver", "snr"), v, {"units": "1"}) for k, v in data.items()},
+                        coords={"receiver": receivers, "snr": ("snr", snrs, {"units": "dB"})})
+    curves.to_dataframe().to_csv(out / "ber_vs_snr.csv")
+    detail = (f"QPSK at {rate:g} Bd, " + geometry_text(site.source.depth_m, site.receiver.range_m,
+                                                        site.receiver.depth_m))
+    plot_ber_curves(curves, out / "ber_vs_snr.png", site=site, detail=detail)
+    args._curves = curves
+    return [("Receivers compared", "Bit error rate against band SNR on this channel for the receiver "
+             "without equalizer, the linear equalizer and the adaptive DFE with PLL: Monte Carlo with 95% "
+             "intervals, and the analytic prediction dashed", "ber_vs_snr.png"),
+            ("Receivers compared (CSV)", "The same curves as numbers", "ber_vs_snr.csv")]
+
+
+def step_sweep(site, out, args, done):
+    import numpy as np
+    import xarray as xr
+
+    from aculink.planning import run_sweep
+    from aculink.plots.plan import plot_rate_map
+
+    stop = min(8000.0, site.seabed.max_range_m)
+    ranges = np.linspace(1000.0, stop, 8)
+    bottom = float(np.min(site.seabed.depth_at(ranges)))
+    depths = np.linspace(5.0, bottom - 5.0, 5)
+    run_sweep(site, ranges, depths, out / "sweep.nc", workers=1, quiet=True, overwrite=True)
+    with xr.open_dataset(out / "sweep.nc") as ds:
+        plot_rate_map(ds.load(), site, out / "sweep.png")
+    return [("Range x depth sweep (NetCDF)", "Best net bit rate and its configuration over a small range x "
+             "depth grid, labelled with units; open it with xarray.open_dataset", "sweep.nc"),
+            ("Rate map", "Best net bit rate over range and receiver depth", "sweep.png")]
+
+
+def demo_symbol_rate(site, plan) -> float:
+    """Symbol rate for the receiver comparison: the DFE's choice at the site's receiver range."""
+    import numpy as np
+
+    rates = plan["best_symbol_rate_baud"].values
+    r = plan["range"].values
+    i = int(np.argmin(np.abs(r - site.receiver.range_m)))
+    if np.isfinite(rates[i]) and rates[i] > 0:
+        return float(rates[i])
+    return float(site.modem.bandwidth_hz / (1.0 + site.modem.rolloff) / 2.0)
+
+
+def conclusion(site, out) -> str:
+    """Two sentences a planner can act on, from the table just written."""
+    import csv
+
+    with open(out / "plan.csv", newline="", encoding="utf-8") as f:
+        rows = list(csv.DictReader(f))
+    at = min(rows, key=lambda r: abs(float(r["range_m"]) - site.receiver.range_m))
+    rng = float(at["range_m"]) / 1000.0
+    if at["net_bit_rate_bps"] and float(at["net_bit_rate_bps"]) > 0:
+        first = (f"At {rng:g} km the best receiver ({at['receiver']}) sustains "
+                 f"{float(at['net_bit_rate_bps']):,.0f} bit/s with {at['modulation'].upper()} at "
+                 f"{float(at['symbol_rate_baud']):,.0f} Bd and {float(at['margin_db']):.1f} dB of margin.")
+    else:
+        first = f"At {rng:g} km no configuration meets the target BER with the margin."
+    return first + " " + no_equalizer_reach(site)
+
+
+def no_equalizer_reach(site) -> str:
+    """Where the receiver without equalizer stops being workable, from a table for it alone."""
+    import numpy as np
+
+    from aculink.planning.table import plan_rates
+
+    stop = min(10000.0, site.seabed.max_range_m)
+    ds = plan_rates(site, np.arange(500.0, stop + 1.0, 500.0), receivers=["none"])
+    ok = np.nan_to_num(ds["net_bit_rate_bps"].values) > 0
+    r = ds["range"].values / 1000.0
+    if not ok.any():
+        return "The receiver without equalizer fails at every range from 0.5 km: the multipath needs an equalizer."
+    if ok.all():
+        return f"The receiver without equalizer still works out to {r[-1]:g} km here."
+    last = r[np.nonzero(ok)[0][-1]]
+    return f"The receiver without equalizer fails beyond {last:g} km."
