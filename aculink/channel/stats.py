@@ -13,8 +13,8 @@ Definitions (all from the path list, path power = |gain_p(f)|^2 averaged over th
 * ``tl_coherent_db``: -10 log10 of the band mean of |H(f)|^2; ``tl_incoherent_db``: -10 log10 of the
   band mean of sum_p |gain_p(f)|^2 (dB re 1 m).
 * ``doppler_spread_hz``: rms width of the Doppler power spectrum: paths at a_p fc, each
-  widened by its surface spread (power of the time-varying model, gain / chi_p for surface
-  paths); ``doppler_shift_hz`` its power-weighted mean.
+  widened by its surface spread on the fluctuating fraction 1 - chi_p^2 of its power (the
+  steady fraction chi_p^2 stays at a_p fc); ``doppler_shift_hz`` its power-weighted mean.
 * ``coherence_time_s``: the smallest lag at which |R(dt)| falls to 0.5, with
   R(dt) = sum_p P_p exp(j 2 pi a_p fc dt) rho_p(dt) / sum_p P_p and rho_p the correlation of the
   surface factor, exp(-s_p^2 (1 - r(dt))) for phase std s_p and elevation correlation r; inf
@@ -143,13 +143,14 @@ def doppler_statistics(channel) -> dict:
     motion = channel.surface
     rough = motion is not None and motion.active
     std = surface_phase_std(channel.surface_grazing_sin2_sum, fc, motion) if rough else np.zeros(channel.n_paths)
-    p_tv = power * np.exp(np.minimum(std ** 2, 600.0))  # |gain / chi|^2
+    p_tv = power  # the surface factor has unit modulus: mean power is the arrivals' power
     if p_tv.sum() == 0:
         return {"doppler_shift_hz": np.nan, "doppler_spread_hz": np.nan, "coherence_time_s": np.nan,
                 "time_varying": False}
     w = p_tv / p_tv.sum()
     nu = channel.doppler * fc
-    sig = channel.surface_doppler_spread_hz
+    # a steady fraction chi^2 plus a Gaussian of rms width sig on the rest: variance (1 - chi^2) sig^2
+    sig = channel.surface_doppler_spread_hz * np.sqrt(-np.expm1(-np.minimum(std ** 2, 600.0)))
     mean = float(np.sum(w * nu))
     spread = float(np.sqrt(max(np.sum(w * (nu ** 2 + sig ** 2)) - mean ** 2, 0.0)))
     out = {"doppler_shift_hz": mean, "doppler_spread_hz": spread,

@@ -17,10 +17,16 @@ path is exact in distribution. Different paths are independent (their bounce poi
 apart compared with the correlation length of the waves: an assumption, stated here).
 
 Energy bookkeeping. The arrivals' amplitudes already include the Eckart coherent factor
-``chi_p = exp(-2 k^2 sigma^2 S_p)``, and ``E[exp(j phi_p)] = chi_p`` for a Gaussian phase. The
-time-varying gain is therefore ``gain_p * exp(j phi_p(t)) / chi_p``: its mean over realisations is
-the coherent value the arrivals give, and its mean power is the smooth-surface power (the
-Kirchhoff picture: roughness moves energy from the coherent into the incoherent part).
+``chi_p = exp(-2 k^2 sigma^2 S_p)``. The time-varying gain is ``gain_p * exp(j phi_p(t))``: a
+unit-modulus fluctuation, so the path's mean power stays the Eckart (coherent) power of the
+arrivals, and its mean complex gain is ``chi_p gain_p`` (``E[exp(j phi)] = chi_p`` for a Gaussian
+phase): of the path's power the fraction ``chi_p^2`` is steady and the rest fluctuates with the
+surface Doppler spread. The energy roughness scatters out of the specular direction is taken as
+lost to the link: it reaches the receiver spread over delay and angle, like reverberation, and a
+coherent receiver cannot use it. Restoring it to the specular path (a pure phase screen, mean
+power of a smooth surface) would give a steep multi-bounce path under a gale its full
+smooth-surface power, fluctuating at the wave frequency, which no sea data support; the choice
+here is the conservative one (our modelling decision, no source).
 
 The process is synthesised as ``eta(t) = sum_m A_m cos(w_m t) + B_m sin(w_m t)`` with independent
 normal A_m, B_m of variance ``S(w_m) dw_m`` on a fixed logarithmic grid of ``w_m`` (random
@@ -135,7 +141,7 @@ def surface_doppler_spread_hz(sin2_sum, carrier_hz, motion: SurfaceMotion | None
 
 
 def surface_gain_factors(sin2_sum, carrier_hz, motion: SurfaceMotion | None, times_s, seed):
-    """Random complex gain factor exp(j phi_p(t)) / chi_p of every path at ``times_s``.
+    """Random unit-modulus gain factor exp(j phi_p(t)) of every path at ``times_s``.
 
     Parameters
     ----------
@@ -168,9 +174,8 @@ def surface_gain_factors(sin2_sum, carrier_hz, motion: SurfaceMotion | None, tim
     eta = _evaluate_process(a[rough], b[rough], w, t)
     std = surface_phase_std(s[rough], carrier_hz, motion)
     scale = std / motion.rms_height_m
-    # E[exp(j phi)] = exp(-std^2 / 2) = exp(-2 k^2 sigma^2 S_p): the Eckart factor to divide out;
-    # capped where the coherent part has underflowed anyway (chi < exp(-300))
-    out[rough] = np.exp(1j * scale[:, None] * eta + np.minimum(0.5 * std[:, None] ** 2, 300.0))
+    # unit modulus: the path keeps the Eckart power of the arrivals (see the module notes)
+    out[rough] = np.exp(1j * scale[:, None] * eta)
     return out
 
 

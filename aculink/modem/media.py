@@ -141,9 +141,9 @@ class ChannelMedium:
     def _setup_variation(self, time_varying):
         """Mean-power channel and per-path fluctuation for a time-varying channel.
 
-        The channel stage's surface model gives a rough-surface path the gain
-        ``g exp(j phi(t)) / chi`` (``chi = exp(-std^2/2)`` the Eckart coherent factor), so its
-        mean power is ``|g / chi|^2``, of which ``|g|^2`` is steady and the rest fluctuates with
+        The channel stage's surface model gives a rough-surface path the gain ``g exp(j phi(t))``
+        (unit-modulus fluctuation, ``chi = exp(-std^2/2)`` the Eckart coherent factor), so its mean
+        power is ``|g|^2``, of which the fraction ``chi^2`` is steady and the rest fluctuates with
         the path's rms Doppler spread; paths with another Doppler factor than the strongest turn
         against it at ``(a_p - a_0) fc``. Predictions use the mean-power channel (``design``)
         and charge the part of the fluctuation a receiver cannot follow as noise
@@ -161,9 +161,7 @@ class ChannelMedium:
         if ch.surface is not None and getattr(ch.surface, "active", False):
             rough = ch.surface_grazing_sin2_sum > 0
             std[rough] = surface_phase_std(ch.surface_grazing_sin2_sum[rough], ch.carrier_hz, ch.surface)
-        restore = np.exp(np.minimum(0.5 * std ** 2, 300.0))
-        self.design = dataclasses.replace(ch, gain=ch.gain * restore[:, None])
-        power = np.mean(np.abs(self.design.gain) ** 2, axis=1)
+        power = np.mean(np.abs(ch.gain) ** 2, axis=1)
         strongest = int(np.argmax(power))
         self._fluct = dict(power=power, steady=np.exp(-np.minimum(std ** 2, 600.0)),
                            spread_hz=np.asarray(ch.surface_doppler_spread_hz, dtype=float),

@@ -77,9 +77,7 @@ def plot_rate_map(ds, site, path):
     z = ds["depth"].values
     fig, ax = figure(size=(8.4, 4.8))
     values = rate.values / 1000.0
-    cmap = mpl.colormaps[RATE_CMAP].copy()
-    cmap.set_bad(alpha=0.0)
-    cmap.set_under("#D9D9D9")
+    cmap = mpl.colormaps[RATE_CMAP].with_extremes(bad=(0.0, 0.0, 0.0, 0.0), under="#D9D9D9")
     finite = values[np.isfinite(values) & (values > 0)]
     vmax = finite.max() if finite.size else 1.0
     vmin = finite.min() if finite.size else 0.1

@@ -94,44 +94,6 @@ def _refine_gaps(medium, thetas, rec, info, zs, r_sorted, r_max, budget):
     return np.ascontiguousarray(thetas), np.ascontiguousarray(rec), info
 
 
-def _interpolate_straddles(cand, thetas, rec, depths):
-    """Eigenrays interpolated inside same-history straddles (no re-shooting).
-
-    The launch angle is the root of the cubic Hermite interpolant of z(theta0) built from the two
-    rays' depths and dynamic-ray derivatives (Newton, 6 steps); the record columns are interpolated
-    linearly at that angle, and the delay is integrated along the receiver's vertical from each ray,
-    tau = t + (z_r - z)(zeta + zeta_r)/2, weighted by closeness.
-    """
-    j = cand[:, _ke.C_RANGE].astype(int)
-    k = cand[:, _ke.C_DEPTH].astype(int)
-    lo = cand[:, _ke.C_LO].astype(int)
-    a, b = rec[lo, j], rec[lo + 1, j]
-    span = thetas[lo + 1] - thetas[lo]
-    za, zb = a[:, _k.R_Z], b[:, _k.R_Z]
-
-    def dzdt(r):
-        return r[:, _k.R_DZ] - r[:, _k.R_ZETA] / r[:, _k.R_XI] * r[:, _k.R_DX]
-
-    ma, mb = dzdt(a) * span, dzdt(b) * span
-    zr = depths[k]
-    dz = zb - za
-    w = np.clip(np.where(dz != 0.0, (zr - za) / np.where(dz != 0.0, dz, 1.0), 0.5), 0.0, 1.0)
-    for _ in range(6):
-        w2, w3 = w * w, w * w * w
-        z = (2 * w3 - 3 * w2 + 1) * za + (w3 - 2 * w2 + w) * ma + (-2 * w3 + 3 * w2) * zb + (w3 - w2) * mb
-        d = (6 * w2 - 6 * w) * za + (3 * w2 - 4 * w + 1) * ma + (-6 * w2 + 6 * w) * zb + (3 * w2 - 2 * w) * mb
-        w = np.clip(w - np.where(d != 0.0, (z - zr) / np.where(d != 0.0, d, 1.0), 0.0), 0.0, 1.0)
-    rows = a + w[:, None] * (b - a)
-    zeta_r = rows[:, _k.R_ZETA]
-    ta = a[:, _k.R_T] + (zr - za) * 0.5 * (a[:, _k.R_ZETA] + zeta_r)
-    tb = b[:, _k.R_T] + (zr - zb) * 0.5 * (b[:, _k.R_ZETA] + zeta_r)
-    rows[:, _k.R_T] = (1.0 - w) * ta + w * tb
-    rows[:, _k.R_Z] = zr
-    for col in (_k.R_NS, _k.R_NB, _k.R_NC):
-        rows[:, col] = a[:, col]
-    return j, k, rows, thetas[lo] + w * span
-
-
 def _check_receivers(site, ranges_m, depths_m):
     bed = site.seabed
     r = np.atleast_1d(np.asarray(site.receiver.range_m if ranges_m is None else ranges_m, dtype=float)).ravel()
@@ -173,7 +135,7 @@ def _surface_factor(site, sin2, n_surface, freq_hz, c_surface):
 
 
 def find_arrivals(site, ranges_m=None, depths_m=None, freq_hz=None, *, source_depth_m=None, angles_deg=None,
-                  dynamic_range_db=40.0, tolerance_m=0.1, bottom_reflection=None, step_m=None, refine="shoot"):
+                  dynamic_range_db=40.0, tolerance_m=0.1, bottom_reflection=None, step_m=None):
     """Eigenrays from the source to every receiver on a range x depth grid.
 
     Parameters
@@ -197,13 +159,6 @@ def find_arrivals(site, ranges_m=None, depths_m=None, freq_hz=None, *, source_de
         ``f(grazing_rad) -> complex`` seabed coefficient (default Rayleigh from the site).
     step_m : float, optional
         Arc-length step of the integrator, m.
-    refine : {"shoot", "interpolate"}
-        "shoot" (default) re-shoots every eigenray until the depth miss is below ``tolerance_m``.
-        "interpolate" is for large receiver grids: eigenrays inside a straddle are interpolated
-        between its two fan rays (cubic Hermite root for the launch angle, the delay integrated
-        along the wavefront, the rest linear; absorption scaled from the fan's frequency) and only
-        branch-edge eigenrays are re-shot. Its miss is not measured; see the tests for its accuracy.
-
     Returns
     -------
     xarray.Dataset
@@ -234,12 +189,12 @@ def find_arrivals(site, ranges_m=None, depths_m=None, freq_hz=None, *, source_de
     variables, coords, attrs = solve_arrivals(site, ranges_m, depths_m, freq_hz, source_depth_m=source_depth_m,
                                               angles_deg=angles_deg, dynamic_range_db=dynamic_range_db,
                                               tolerance_m=tolerance_m, bottom_reflection=bottom_reflection,
-                                              step_m=step_m, refine=refine)
+                                              step_m=step_m)
     return xr.Dataset(variables, coords=coords, attrs=attrs)
 
 
 def solve_arrivals(site, ranges_m=None, depths_m=None, freq_hz=None, *, source_depth_m=None, angles_deg=None,
-                   dynamic_range_db=40.0, tolerance_m=0.1, bottom_reflection=None, step_m=None, refine="shoot"):
+                   dynamic_range_db=40.0, tolerance_m=0.1, bottom_reflection=None, step_m=None):
     """The work of :func:`find_arrivals`, returned as plain ``(variables, coords, attrs)``.
 
     ``variables`` and ``coords`` map names to ``(dims, numpy array, attrs)``; the command line reads
@@ -252,8 +207,6 @@ def solve_arrivals(site, ranges_m=None, depths_m=None, freq_hz=None, *, source_d
         check_range("freq_hz", f, 0.0, 1.0e6, low_open=True, unit="Hz")
     dyn = check_range("dynamic_range_db", dynamic_range_db, 0.0, 300.0, unit="dB")
     tol = check_range("tolerance_m", tolerance_m, 0.0, 10.0, low_open=True, unit="m")
-    if refine not in ("shoot", "interpolate"):
-        raise AculinkError(f"refine = {refine!r}: expected 'shoot' or 'interpolate'")
     order = np.argsort(ranges)
     r_sorted = ranges[order]
     r_max = float(r_sorted[-1])
@@ -296,13 +249,10 @@ def solve_arrivals(site, ranges_m=None, depths_m=None, freq_hz=None, *, source_d
     pruned = cand[~keep]
     cand = np.ascontiguousarray(cand[keep])
 
-    # refinement: re-shooting, or (refine="interpolate") Hermite interpolation inside straddles
+    # refinement by re-shooting
     edges = depth_bin_edges(site)
     alpha = absorption_table_db_per_m(site, freqs, edges)  # (F, B)
-    interp = np.zeros(cand.shape[0], dtype=bool)
-    if refine == "interpolate":
-        interp = cand[:, _ke.C_KIND] == _ke.KIND_STRADDLE
-    shoot = np.ascontiguousarray(cand[~interp])
+    shoot = cand
     m = shoot.shape[0]
     out_rec = np.full((m, _k.N_RECORD), np.nan)
     out_bins = np.zeros((m, edges.size - 1))
@@ -314,13 +264,6 @@ def solve_arrivals(site, ranges_m=None, depths_m=None, freq_hz=None, *, source_d
     kk = shoot[out_ok, _ke.C_DEPTH].astype(int)
     rows, th = out_rec[out_ok], out_theta[out_ok]
     absorption = out_bins[out_ok] @ alpha.T  # (n, F)
-    if interp.any():
-        ij, ik, irows, ith = _interpolate_straddles(cand[interp], thetas, rec, depths)
-        # absorption scaled from the fan's frequency by the depth-averaged ratio of the coefficients
-        ratio = alpha.mean(axis=1) / max(alpha[int(np.argmin(freqs))].mean(), 1e-300)
-        jj, kk = np.r_[jj, ij], np.r_[kk, ik]
-        rows, th = np.vstack([rows, irows]), np.r_[th, ith]
-        absorption = np.vstack([absorption, irows[:, _k.R_ABS, None] * ratio[None, :]])
 
     # merge duplicates: same receiver and history, launch angles within the tolerance's angular width
     hist = rows[:, [_k.R_NS, _k.R_NB, _k.R_NC]].astype(int)

@@ -151,7 +151,7 @@ def main():
     grid_r = np.linspace(200.0, 10000.0, 50)
     grid_z = np.linspace(1.0, 59.0, 50)
     solve_arrivals(site, grid_r[:2], grid_z[:2])
-    t4, t4min, (variables, _, _) = timed(lambda: solve_arrivals(site, grid_r, grid_z), repeats=3)
+    t4, t4min, (variables, _, _) = timed(lambda: solve_arrivals(site, grid_r, grid_z), repeats=1)
     n = variables["n_arrivals"][1]
     print(f"[4] eigenrays, 50 x 50 receivers (0.2-10 km, 1-59 m): {t4:.2f} s median ({t4min:.2f} best); "
           f"{n.sum():,} arrivals kept, {n.mean():.1f} per receiver, {variables['n_dropped'][1].sum():,} dropped; "

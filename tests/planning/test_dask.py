@@ -105,3 +105,17 @@ def test_unreachable_scheduler_is_one_line_within_timeout(serial, tmp_path):
         run_sweep(site, RANGES, DEPTHS, tmp_path / "u.nc", scheduler=f"tcp://127.0.0.1:{port}", **OPTS)
     assert time.monotonic() - start < 15
     assert "\n" not in str(info.value)
+
+
+def test_cli_sweep_through_scheduler_equals_serial(scheduler, tmp_path, capsys):
+    """`aculink sweep --scheduler` on the real chain equals `--workers 0` (regression)."""
+    from aculink.cli import main
+
+    site_file = Path(__file__).with_name("isovelocity_silt.toml")
+    args = ["sweep", str(site_file), "--ranges-m", "1000:4000:1000", "--depths-m", "20,50",
+            "--receiver", "dfe", "--chunk-ranges", "1", "--quiet"]
+    assert main(args + ["-o", str(tmp_path / "a.nc"), "--workers", "0"]) == 0
+    assert main(args + ["-o", str(tmp_path / "b.nc"), "--scheduler", scheduler]) == 0
+    capsys.readouterr()
+    xr.testing.assert_identical(xr.open_dataset(tmp_path / "a.nc").load(),
+                                xr.open_dataset(tmp_path / "b.nc").load())
