@@ -103,9 +103,9 @@ def step_arrivals(site, out, args, done):
     from aculink.cli.arrivals import arrivals_table, format_table
     from aculink.io.atomic import write_text_atomic
     from aculink.io.tables import write_csv
-    from aculink.propagation import find_arrivals
+    from aculink.propagation.eigenrays import solve_arrivals
 
-    table = arrivals_table(find_arrivals(site))
+    table = arrivals_table(*solve_arrivals(site))
     write_text_atomic(out / "arrivals.txt", format_table(table) + "\n")
     keys = list(table["arrivals"][0]) if table["arrivals"] else ["delay_s"]
     write_csv(out / "arrivals.csv", keys, table["arrivals"])

@@ -132,7 +132,7 @@ def _receiver_estimate(medium, rs, beta, receiver, opts, n_training, n_payload):
     q_half = memo(("response", rs, beta, 2), lambda: medium.response(rs, beta, 2))
     plan = plan_receiver(q_half, receiver, algorithm=opts["algorithm"], n_ff=opts["n_ff"], n_fb=opts["n_fb"],
                          sparse=opts["sparse"], n_sparse=opts["n_sparse"], forgetting=opts["forgetting"],
-                         step=opts["step_size"])
+                         step=opts["step_size"], symbol_rate_baud=rs)
     layout = frame_layout(plan.n_adapted, plan.spread_symbols, algorithm=plan.algorithm,
                           receiver=receiver, n_training=n_training, n_payload=n_payload)
     es = medium.es_over_ref(rs)

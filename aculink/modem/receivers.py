@@ -43,7 +43,7 @@ ALGORITHMS = ("rls", "nlms")
 #: (common practice, no source).
 SPAN_THRESHOLD_DB = 20.0
 FF_EXTRA_SYMBOLS = 3
-MAX_FF_SYMBOLS = 16
+MAX_FF_SYMBOLS = 32
 MAX_LE_SYMBOLS = 32
 MAX_FB_SYMBOLS = 400
 #: Sparse feedback keeps the delays whose leakage into the window is within this of the
@@ -88,11 +88,22 @@ def pll_gains(loop_bandwidth: float, damping: float = 1 / math.sqrt(2)) -> tuple
     return 4.0 * z * th / d, 4.0 * th * th / d
 
 
-def default_forgetting(n_taps: int) -> float:
+#: Longest RLS memory in seconds: surface-bounce paths decorrelate over about a second (wave
+#: periods of a few seconds), so a receiver that averages much longer than this cannot follow
+#: them (common practice, no source).
+TRACK_MEMORY_S = 0.1
+
+
+def default_forgetting(n_taps: int, symbol_rate_baud: float | None = None) -> float:
     """RLS forgetting factor: memory of about ten times the taps, so the misadjustment
-    ``M (1 - lambda) / (1 + lambda)`` stays near 5 % (0.2 dB); clipped to [0.99, 0.9995]
-    (common practice, no source)."""
-    return float(np.clip(1.0 - 1.0 / (10.0 * max(n_taps, 1)), 0.99, 0.9995))
+    ``M (1 - lambda) / (1 + lambda)`` stays near 5 % (0.2 dB), but no longer than
+    :data:`TRACK_MEMORY_S` when the symbol rate is known, and never shorter than 2.5 times the
+    taps (misadjustment 25 %, 1 dB); clipped to [0.95, 0.9995] (common practice, no source)."""
+    n = max(n_taps, 1)
+    memory = 10.0 * n
+    if symbol_rate_baud is not None:
+        memory = max(2.5 * n, min(memory, TRACK_MEMORY_S * float(symbol_rate_baud)))
+    return float(np.clip(1.0 - 1.0 / memory, 0.95, 0.9995))
 
 
 @dataclass(frozen=True)
@@ -151,7 +162,7 @@ def _count(name, value, low, high):
 
 
 def plan_receiver(q_half, receiver, *, algorithm="rls", n_ff=None, n_fb=None, sparse=False,
-                  n_sparse=None, forgetting=None, step=None) -> ReceiverPlan:
+                  n_sparse=None, forgetting=None, step=None, symbol_rate_baud=None) -> ReceiverPlan:
     """Spans and settings for ``receiver`` on a channel with T/2 response ``q_half``.
 
     Raises
@@ -178,7 +189,7 @@ def plan_receiver(q_half, receiver, *, algorithm="rls", n_ff=None, n_fb=None, sp
     sparse = bool(sparse) and receiver in ("dfe", "mmse-dfe") and fb > 0
     ns = fb if n_sparse is None else _count("n_sparse (active feedback taps)", n_sparse, 1, max(fb, 1))
     n_adapt = ff + (ns if sparse else fb)
-    lam = default_forgetting(n_adapt) if forgetting is None else check_range(
+    lam = default_forgetting(n_adapt, symbol_rate_baud) if forgetting is None else check_range(
         "forgetting", forgetting, 0.0, 1.0, low_open=True)
     mu = DEFAULT_NLMS_STEP if step is None else check_range("step_size", step, 0.0, 2.0, low_open=True, high_open=True)
     return ReceiverPlan(receiver, algorithm, ff, fb, sparse, ns, lam, mu, pre_s + post_s, pre_s, post_s)

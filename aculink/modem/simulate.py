@@ -186,7 +186,7 @@ def simulate_link(channel, *, symbol_rate_baud, modulation, receiver, budget=Non
         sps = 2 * int(math.ceil(band / (2 * rs)))
     q_known = medium.response(rs, beta, 2)
     plan = plan_receiver(q_known, receiver, algorithm=algorithm, n_ff=n_ff, n_fb=n_fb, sparse=sparse,
-                         n_sparse=n_sparse, forgetting=forgetting, step=step_size)
+                         n_sparse=n_sparse, forgetting=forgetting, step=step_size, symbol_rate_baud=rs)
     layout = frame_layout(plan.n_adapted, plan.spread_symbols, algorithm=algorithm, receiver=receiver,
                           n_training=n_training, n_payload=n_payload)
     pred = predict_link(channel, budget, rs, mod, receiver, rolloff=beta, snr_db=snr_db, algorithm=algorithm,
