@@ -43,7 +43,7 @@ ALGORITHMS = ("rls", "nlms")
 #: (common practice, no source).
 SPAN_THRESHOLD_DB = 20.0
 FF_EXTRA_SYMBOLS = 3
-MAX_FF_SYMBOLS = 32
+MAX_FF_SYMBOLS = 64
 MAX_LE_SYMBOLS = 32
 MAX_FB_SYMBOLS = 400
 #: Sparse feedback keeps the delays whose leakage into the window is within this of the
