@@ -4,8 +4,7 @@ from __future__ import annotations
 
 from aculink.cli._common import add_site_argument, load_site_arg, print_json
 
-CAUTION = ("Caution: planning estimate from ray theory. Sound in water can harm marine life and people; "
-           "follow local regulations and permits before transmitting.")
+from aculink.cautions import CAUTION_LINE as CAUTION
 
 
 def register(subparsers) -> None:

@@ -6,8 +6,7 @@ import math
 
 from aculink.cli._common import add_site_argument, load_site_arg, print_json
 
-CAUTION = ("Caution: simulated planning estimate, not a guarantee. Sound in water can harm marine "
-           "life and people; follow local regulations and permits before transmitting.")
+from aculink.cautions import CAUTION_LINE as CAUTION
 
 
 def register(subparsers) -> None:

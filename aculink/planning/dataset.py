@@ -11,9 +11,7 @@ import xarray as xr
 
 from aculink import __version__
 
-CAUTION = ("Planning estimate only, not a guarantee of link performance. Sound in water can harm "
-           "marine mammals, fish and divers: check the source level against local regulations "
-           "and obtain the permits required before transmitting.")
+from aculink.cautions import CAUTION
 
 #: Candidate axes, in the order the evaluator fills them.
 CANDIDATE_DIMS = ("receiver", "symbol_rate", "modulation")

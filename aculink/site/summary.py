@@ -26,9 +26,7 @@ FEATURE_TOLERANCE_MPS = 0.2
 #: practice, no source).
 ISOVELOCITY_SPREAD_MPS = 1.0
 
-CAUTION = ("Caution: planning estimates only. Sound at these source levels can injure divers and "
-           "disturb or harm marine mammals and fish; many waters need a permit for acoustic emission. "
-           "Follow local regulations and licensed practice, and confirm with sea trials.")
+from aculink.cautions import CAUTION_LINE as CAUTION
 
 
 def _grid(bottom_m: float) -> np.ndarray:
