@@ -50,9 +50,9 @@ def plot_plan(ds, site, path):
     ax.set_xlabel("range (km)")
     ax.set_ylabel("workable net bit rate (kbit/s)")
     geo = geometry_text(ds.attrs.get("source_depth_m"), None, None)
-    ax.set_title(site_title(site, f"{geo}, receiver {ds.attrs['receiver_depth_m']:g} m deep; "
-                            f"BER {ds.attrs['target_ber']:.0e} with {ds.attrs['margin_db']:g} dB margin"))
-    ax.legend(title="receiver", loc="upper right")
+    ax.set_title(site_title(site, f"{geo}, receiver {ds.attrs['receiver_depth_m']:g} m deep")
+                 + f"\nworkable at BER {ds.attrs['target_ber']:.0e} with {ds.attrs['margin_db']:g} dB margin")
+    ax.legend(title="receiver", loc="best", fontsize=7.5)
     ax.text(0.01, 0.01, "planning estimate; check source levels against local permits",
             transform=ax.transAxes, fontsize=7.5, color="#666666")
     return save(fig, path)
@@ -102,8 +102,8 @@ def plot_rate_map(ds, site, path):
     bits = [geometry_text(src)] if src is not None else []
     if "wind" in extra:
         bits.append(f"wind {extra['wind']:g} m/s")
-    bits.append(f"BER {ds.attrs['target_ber']:.0e}, {ds.attrs['margin_db']:g} dB margin")
-    ax.set_title(site_title(site, ", ".join(bits)))
+    ax.set_title(site_title(site, ", ".join(bits))
+                 + f"\nworkable at BER {ds.attrs['target_ber']:.0e} with {ds.attrs['margin_db']:g} dB margin")
     ax.legend(loc="lower left")
     ax.grid(False)
     return save(fig, path)

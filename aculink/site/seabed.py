@@ -108,14 +108,16 @@ def rayleigh_reflection(grazing_rad, water_speed_mps, water_density_kgm3, bed_sp
     delta = alpha / DB_PER_WAVELENGTH_PER_LOSS_PARAMETER
     m_sin = (rho2 / rho1) * np.sin(theta)
     n = (c1 / c2) * (1.0 + 1j * delta)
-    root = np.sqrt(n * n - np.cos(theta) ** 2 + 0j)
+    # n^2 - cos^2 written as (n^2 - 1) + sin^2: no cancellation at grazing incidence
+    root = np.sqrt((n * n - 1.0) + np.sin(theta) ** 2 + 0j)
     root = np.where(root.imag < 0.0, -root, root)
     m_sin, root, m = np.broadcast_arrays(m_sin, root, rho2 / rho1)
     den = m_sin + root
-    # den = 0 only at grazing incidence on a lossless bed of the water's own speed, where the
-    # limit theta -> 0 of R is the angle-independent (m - 1)/(m + 1)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        r = np.where(den == 0, (m - 1.0) / (m + 1.0), (m_sin - root) / np.where(den == 0, 1, den))
+    # den vanishes (to below any meaningful float) only at grazing incidence on a lossless bed
+    # of the water's own speed, where the limit theta -> 0 of R is (m - 1)/(m + 1)
+    tiny = np.abs(den) < 1e-150
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+        r = np.where(tiny, (m - 1.0) / (m + 1.0), (m_sin - root) / np.where(tiny, 1, den))
     return np.conj(r)
 
 

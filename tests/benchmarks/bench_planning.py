@@ -24,6 +24,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
 
 from aculink.planning import plan_rates, run_sweep  # noqa: E402
 from aculink.planning import checkpoint as ckpt_mod  # noqa: E402
+from aculink.modem import predict as modem_predict  # noqa: E402
 from aculink.planning import search  # noqa: E402
 from aculink.planning.sweep import candidate_grid  # noqa: E402
 from aculink.site.bundled import bundled_site_path  # noqa: E402
@@ -73,11 +74,13 @@ def main():
         tmp = Path(tmp)
         run_sweep(site, SWEEP_RANGES[:4], SWEEP_DEPTHS[:4], tmp / "warm.nc", workers=0, quiet=True)
         rss = []
+        cache = []  # entries in the modem stage's bounded estimate cache (it holds channels)
         real_save = ckpt_mod.Checkpoint.save
 
         def save(self, index, arrays):
             out = real_save(self, index, arrays)
             rss.append(rss_mb())
+            cache.append(len(modem_predict._CACHE))
             return out
 
         ckpt_mod.Checkpoint.save = save
@@ -89,7 +92,9 @@ def main():
         half = n_chunks // 2
         growth = (rss[-1] - rss[half]) / max(1, n_chunks - 1 - half)
         print(f"RSS after chunk 1: {rss[0]:.0f} MB, after chunk {half + 1}: {rss[half]:.0f} MB, after chunk "
-              f"{n_chunks}: {rss[-1]:.0f} MB; growth over the second half {growth * 1024:.0f} kB/chunk")
+              f"{n_chunks}: {rss[-1]:.0f} MB; growth over the second half {growth * 1024:.0f} kB/chunk; "
+              f"modem estimate cache {cache[0]} -> {cache[half]} -> {cache[-1]} entries (capped at "
+              f"{modem_predict._CACHE_SIZE})")
         t_dask_total, sd = timed(run_sweep, site, SWEEP_RANGES, SWEEP_DEPTHS, tmp / "dask.nc", workers=2, quiet=True)
         import xarray as xr
 
