@@ -9,7 +9,6 @@ from __future__ import annotations
 
 import argparse
 import importlib
-import sys
 
 from aculink.cli._common import fail, handle_errors
 

@@ -127,3 +127,16 @@ def load_site_arg(path):
     from aculink.site.loader import load_site
 
     return load_site(path)
+
+
+def check_plot_path(args) -> None:
+    """Refuse a ``--plot`` that is not a .png, or that exists without ``--overwrite``, before any work."""
+    from pathlib import Path
+
+    plot = getattr(args, "plot", None)
+    if plot is None:
+        return
+    if Path(plot).suffix.lower() != ".png":
+        raise AculinkError(f"--plot = '{plot}': expected a file name ending in .png")
+    if Path(plot).exists() and not getattr(args, "overwrite", False):
+        raise AculinkError(f"--plot = '{plot}': the file exists; pass --overwrite to replace it")

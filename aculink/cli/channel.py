@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import math
 
-from aculink.cli._common import add_site_argument, load_site_arg, print_json
+from aculink.cli._common import add_site_argument, check_plot_path, load_site_arg, print_json
 
 from aculink.cautions import CAUTION_LINE as CAUTION
 
@@ -120,17 +120,9 @@ def format_report(rep: dict) -> str:
 
 
 def run(args) -> int:
-    from pathlib import Path
-
     from aculink.channel import channel_for_site, link_budget
-    from aculink.errors import AculinkError
 
-    if args.plot is not None:
-        plot = Path(args.plot)
-        if plot.suffix.lower() != ".png":
-            raise AculinkError(f"--plot = '{args.plot}': expected a file name ending in .png")
-        if plot.exists() and not args.overwrite:
-            raise AculinkError(f"--plot = '{args.plot}': the file exists; pass --overwrite to replace it")
+    check_plot_path(args)
     site = load_site_arg(args.site)
     channel = channel_for_site(site, args.range_m, args.depth_m)
     budget = link_budget(site, channel)

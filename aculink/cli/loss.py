@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from aculink.cli._common import add_site_argument, load_site_arg, parse_span, print_json
+from aculink.cli._common import add_site_argument, check_plot_path, load_site_arg, parse_span, print_json
 
 from aculink.cautions import CAUTION_LINE as CAUTION
 
@@ -33,10 +33,9 @@ def register(subparsers) -> None:
 def run(args) -> int:
     import numpy as np
 
-    from aculink.cli.rays import _check_plot
     from aculink.propagation.loss import transmission_loss
 
-    _check_plot(args)
+    check_plot_path(args)
     site = load_site_arg(args.site)
     r_end = min(site.receiver.range_m * 1.25, site.seabed.max_range_m)
     ranges = (parse_span(args.ranges_m, "--ranges-m", positive=True) if args.ranges_m

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from aculink.cli._common import add_site_argument, load_site_arg, parse_count_span, print_json
+from aculink.cli._common import add_site_argument, check_plot_path, load_site_arg, parse_count_span, print_json
 
 
 def register(subparsers) -> None:
@@ -32,25 +32,12 @@ def register(subparsers) -> None:
     parser.set_defaults(func=run)
 
 
-def _check_plot(args):
-    from pathlib import Path
-
-    from aculink.errors import AculinkError
-
-    if args.plot is None:
-        return
-    if Path(args.plot).suffix.lower() != ".png":
-        raise AculinkError(f"--plot = '{args.plot}': expected a file name ending in .png")
-    if Path(args.plot).exists() and not args.overwrite:
-        raise AculinkError(f"--plot = '{args.plot}': the file exists; pass --overwrite to replace it")
-
-
 def run(args) -> int:
     import numpy as np
 
     from aculink.propagation.rays import TERMINATION_MEANINGS, trace_rays
 
-    _check_plot(args)
+    check_plot_path(args)
     angles = parse_count_span(args.angles_deg, "--angles-deg")
     site = load_site_arg(args.site)
     fan = trace_rays(site, source_depth_m=args.source_depth_m, angles_deg=angles, max_range_m=args.max_range_m)
@@ -80,4 +67,7 @@ def run(args) -> int:
           f"seabed {int(fan.bottom_bounces.min())}-{int(fan.bottom_bounces.max())}")
     if args.plot is not None:
         print(f"Plot written to {args.plot}")
+    from aculink.cautions import CAUTION_LINE
+
+    print(CAUTION_LINE)
     return 0

@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from aculink.cli._common import add_site_argument, load_site_arg, print_json
+from aculink.cli._common import add_site_argument, check_plot_path, load_site_arg, print_json
 
 
 def register(subparsers) -> None:
@@ -23,17 +23,9 @@ def register(subparsers) -> None:
 
 
 def run(args) -> int:
-    from pathlib import Path
-
-    from aculink.errors import AculinkError
     from aculink.site.summary import format_summary, summarize_site
 
-    if args.plot is not None:
-        plot = Path(args.plot)
-        if plot.suffix.lower() != ".png":
-            raise AculinkError(f"--plot = '{args.plot}': expected a file name ending in .png")
-        if plot.exists() and not args.overwrite:
-            raise AculinkError(f"--plot = '{args.plot}': the file exists; pass --overwrite to replace it")
+    check_plot_path(args)
     site = load_site_arg(args.site)
     summary = summarize_site(site)
     if args.plot is not None:

@@ -24,7 +24,7 @@ import xarray as xr
 from aculink.errors import AculinkError, check_range
 from aculink.modem.constellations import check_modulation, constellation
 from aculink.modem.frames import SYNC_SYMBOLS, frame_layout
-from aculink.modem.frontend import pulse_delay, shape, synchronise
+from aculink.modem.frontend import shape, synchronise
 from aculink.modem.media import make_medium
 from aculink.modem.predict import DEFAULT_ROLLOFF, predict_link
 from aculink.modem.receivers import (check_algorithm, check_receiver, design_for, feedback_delays, pll_gains,

@@ -36,7 +36,6 @@ def beam_sum(z, c, cos_t, sin_t, tau, q, p, fac_re, fac_im, base, dtheta, ranges
     """
     n_rays = z.shape[0]
     n_r = ranges.shape[0]
-    n_z = depths.shape[0]
     for j in nb.prange(n_r):
         for i in range(n_rays):
             zi = z[i, j]

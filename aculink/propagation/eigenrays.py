@@ -12,8 +12,9 @@ How it works (kernels in :mod:`aculink.propagation._kernels_eigen`):
    :data:`PRUNE_MARGIN_DB` below the strongest at that receiver are dropped before refinement.
 4. The rest are refined by re-shooting single rays to the receiver range (Newton on the launch angle
    with the dynamic-ray derivative, safeguarded by bisection) until the depth miss is below
-   ``tolerance_m``. The delay is then moved to the receiver depth along the wavefront,
-   tau = t + zeta (z_r - z), an error of second order in the miss.
+   ``tolerance_m``. The delay is then moved to the receiver depth at the receiver range to second
+   order in the miss dz: tau = t + zeta dz + (1/2) (d zeta/dz) dz^2, with d zeta/dz at fixed range
+   from the dynamic-ray derivatives (the wavefront's curvature), so the residual is third order.
 5. Duplicates (same history, launch angles within the angular width of the tolerance) are merged;
    arrivals more than ``dynamic_range_db`` below the strongest at every requested frequency are
    dropped and counted.
@@ -281,7 +282,7 @@ def solve_arrivals(site, ranges_m=None, depths_m=None, freq_hz=None, *, source_d
     # physical quantities
     zr = depths[kk]
     r_of = r_sorted[jj]
-    delay = rows[:, _k.R_T] + rows[:, _k.R_ZETA] * (zr - rows[:, _k.R_Z])
+    delay = _delay_at_receiver(site, rows, zr)
     spread = _spreading(rows, np.cos(th), c0, r_of)
     surface = _surface_factor(site, rows[:, _k.R_SIN2], hist[:, 0], freqs, medium.surface_speed_mps)
     bottom = rows[:, _k.R_BRE] + 1j * rows[:, _k.R_BIM]
@@ -377,3 +378,22 @@ def solve_arrivals(site, ranges_m=None, depths_m=None, freq_hz=None, *, source_d
         },
         attrs,
     )
+
+
+def _delay_at_receiver(site, rows, zr):
+    """Travel time at the receiver depth from a ray that ends ``zr - z`` away at the same range.
+
+    T(x, z) about the ray's end point: dT/dz = zeta and d2T/dz2 = d zeta/dz at fixed range, from
+    the launch-angle derivatives moved from fixed arc length to fixed range with the ray equations
+    dz/ds = c zeta, dzeta/ds = -c_z / c^2 (Jensen et al., Computational Ocean Acoustics, 2nd ed.
+    2011, sect. 3.2). Where dz/dtheta0 vanishes (a caustic at the receiver) the first-order form
+    is kept.
+    """
+    z, xi, zeta, c = rows[:, _k.R_Z], rows[:, _k.R_XI], rows[:, _k.R_ZETA], rows[:, _k.R_C]
+    miss = zr - z
+    cz = site.water.profile.evaluate(z)[1]
+    dz_x = rows[:, _k.R_DZ] - zeta / xi * rows[:, _k.R_DX]
+    dzeta_x = rows[:, _k.R_DZETA] + cz * rows[:, _k.R_DX] / (c ** 3 * xi)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        curvature = np.where(np.abs(dz_x) > 1e-12, dzeta_x / dz_x, 0.0)
+    return rows[:, _k.R_T] + zeta * miss + 0.5 * curvature * miss ** 2
