@@ -51,13 +51,18 @@ def _outputs_free(args) -> None:
             raise AculinkError(f"{option}: output folder {folder} does not exist")
 
 
-def default_ranges(site):
+def default_ranges(site, depth_m):
     """The default span, cut at the end of the site's seabed description."""
     import numpy as np
 
     ranges = parse_span(DEFAULT_RANGES, "--ranges-m")
     keep = ranges[ranges <= site.seabed.max_range_m]
-    return keep if keep.size else np.array([site.seabed.max_range_m])
+    if not keep.size:
+        keep = np.array([site.seabed.max_range_m])
+    # the default span leaves out ranges where the receiver would sit in or below the seabed
+    # (a sloping harbour approach); ranges the user names are checked and refused instead
+    in_water = keep[site.seabed.depth_at(keep) > depth_m]
+    return in_water if in_water.size else keep
 
 
 def run(args) -> int:
@@ -68,7 +73,7 @@ def run(args) -> int:
     _outputs_free(args)
     site = load_site_arg(args.site)
     if args.ranges_m is None:
-        ranges = default_ranges(site)
+        ranges = default_ranges(site, site.receiver.depth_m if args.depth_m is None else args.depth_m)
     else:
         ranges = parse_span(args.ranges_m, "--ranges-m", positive=True)
     receivers = args.receiver if args.receiver == "all" else [args.receiver]
