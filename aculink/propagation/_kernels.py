@@ -494,6 +494,23 @@ def trace_ray(theta0, zs, knots, coef, bed_r, bed_z, bed_slope, bt_step, bt_re, 
     return npts, step, term, x, n_s, n_b, n_c
 
 
+@nb.njit(cache=True, inline="always", error_model="numpy")
+def _trace_into(i, thetas, zs, knots, coef, bed_r, bed_z, bed_slope, bt_step, bt_re, bt_im, ab_dz, ab_db,
+                ds, r_max, max_steps, floor_mag, rec_r, rec, px, pz, pt, pa, info, nobins):
+    """Trace ray ``i`` of a fan into its rows of the output buffers (shared by both drivers)."""
+    npts, nst, term, xe, ns, nbt, nc = trace_ray(thetas[i], zs, knots, coef, bed_r, bed_z, bed_slope,
+                                                 bt_step, bt_re, bt_im, ab_dz, ab_db, ds, r_max,
+                                                 max_steps, floor_mag, rec_r, rec[i], px[i], pz[i],
+                                                 pt[i], pa[i], nobins)
+    info[i, 0] = npts
+    info[i, 1] = nst
+    info[i, 2] = term
+    info[i, 3] = xe
+    info[i, 4] = ns
+    info[i, 5] = nbt
+    info[i, 6] = nc
+
+
 @nb.njit(cache=True, parallel=True, error_model="numpy")
 def trace_fan(thetas, zs, knots, coef, bed_r, bed_z, bed_slope, bt_step, bt_re, bt_im, ab_dz, ab_db,
               ds, r_max, max_steps, floor_mag, rec_r, rec, px, pz, pt, pa, info):
@@ -506,17 +523,8 @@ def trace_fan(thetas, zs, knots, coef, bed_r, bed_z, bed_slope, bt_step, bt_re, 
     n = thetas.shape[0]
     nobins = np.empty(0)
     for i in nb.prange(n):
-        npts, nst, term, xe, ns, nbt, nc = trace_ray(thetas[i], zs, knots, coef, bed_r, bed_z, bed_slope,
-                                                     bt_step, bt_re, bt_im, ab_dz, ab_db, ds, r_max,
-                                                     max_steps, floor_mag, rec_r, rec[i], px[i], pz[i],
-                                                     pt[i], pa[i], nobins)
-        info[i, 0] = npts
-        info[i, 1] = nst
-        info[i, 2] = term
-        info[i, 3] = xe
-        info[i, 4] = ns
-        info[i, 5] = nbt
-        info[i, 6] = nc
+        _trace_into(i, thetas, zs, knots, coef, bed_r, bed_z, bed_slope, bt_step, bt_re, bt_im, ab_dz, ab_db,
+                    ds, r_max, max_steps, floor_mag, rec_r, rec, px, pz, pt, pa, info, nobins)
 
 
 @nb.njit(cache=True, error_model="numpy")
@@ -526,14 +534,5 @@ def trace_fan_serial(thetas, zs, knots, coef, bed_r, bed_z, bed_slope, bt_step, 
     n = thetas.shape[0]
     nobins = np.empty(0)
     for i in range(n):
-        npts, nst, term, xe, ns, nbt, nc = trace_ray(thetas[i], zs, knots, coef, bed_r, bed_z, bed_slope,
-                                                     bt_step, bt_re, bt_im, ab_dz, ab_db, ds, r_max,
-                                                     max_steps, floor_mag, rec_r, rec[i], px[i], pz[i],
-                                                     pt[i], pa[i], nobins)
-        info[i, 0] = npts
-        info[i, 1] = nst
-        info[i, 2] = term
-        info[i, 3] = xe
-        info[i, 4] = ns
-        info[i, 5] = nbt
-        info[i, 6] = nc
+        _trace_into(i, thetas, zs, knots, coef, bed_r, bed_z, bed_slope, bt_step, bt_re, bt_im, ab_dz, ab_db,
+                    ds, r_max, max_steps, floor_mag, rec_r, rec, px, pz, pt, pa, info, nobins)
