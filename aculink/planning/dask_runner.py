@@ -60,8 +60,14 @@ def dask_client(*, workers=None, scheduler=None, timeout_s=CONNECT_TIMEOUT_S):
             client.close()
         return
     n = machine_workers() if workers is None else int(workers)
-    cluster = LocalCluster(n_workers=n, threads_per_worker=1, processes=True, host="127.0.0.1",
-                           dashboard_address="127.0.0.1:0", silence_logs=logging.ERROR)
+    try:
+        cluster = LocalCluster(n_workers=n, threads_per_worker=1, processes=True, host="127.0.0.1",
+                               dashboard_address="127.0.0.1:0", silence_logs=logging.ERROR)
+    except RuntimeError as exc:
+        # worker processes re-import the calling script: a script that starts a sweep at module
+        # level (no main guard) makes every worker fail to start
+        raise AculinkError(f"workers = {n}: the local Dask workers failed to start ({exc}); in a script, "
+                           "call run_sweep under 'if __name__ == \"__main__\":', or use workers=1") from None
     client = Client(cluster, set_as_default=False)
     try:
         yield client

@@ -115,7 +115,19 @@ def auto_chunk_ranges(n_ranges: int, n_depths: int) -> int:
 
 
 def compute_chunk(job: SweepJob, chunk: Chunk) -> dict:
-    """Every receiver of one chunk: evaluator result plus the workable choice (arrays)."""
+    """Every receiver of one chunk: evaluator result plus the workable choice (arrays).
+
+    The BLAS runs single-threaded here whatever runs the chunk: multithreaded BLAS rounds
+    differently with the thread count, and serial, local-cluster and remote runs must give
+    identical datasets (Dask workers already pin their BLAS to one thread).
+    """
+    from threadpoolctl import threadpool_limits
+
+    with threadpool_limits(limits=1, user_api="blas"):
+        return _compute_chunk(job, chunk)
+
+
+def _compute_chunk(job: SweepJob, chunk: Chunk) -> dict:
     site = job.site.with_geometry(source_depth_m=float(job.source_depths_m[chunk.source_index]))
     if job.winds_mps is not None:
         site = search.site_with_wind(site, float(job.winds_mps[chunk.wind_index]))
