@@ -127,6 +127,16 @@ def _medium(channel, budget, snr_db, time_varying):
     return medium
 
 
+def clear_caches() -> None:
+    """Forget the cached estimates and media (a long sweep calls this between chunks).
+
+    The caches only pay off while one channel is asked about many candidates; across channels
+    they would hold every channel a process has seen, up to their caps.
+    """
+    _CACHE.clear()
+    _MEDIA.clear()
+
+
 def _receiver_estimate(medium, rs, beta, receiver, opts, n_training, n_payload):
     memo = getattr(medium, "memo", lambda key, func: func())
     q_half = memo(("response", rs, beta, 2), lambda: medium.response(rs, beta, 2))

@@ -123,8 +123,13 @@ def compute_chunk(job: SweepJob, chunk: Chunk) -> dict:
     """
     from threadpoolctl import threadpool_limits
 
-    with threadpool_limits(limits=1, user_api="blas"):
-        return _compute_chunk(job, chunk)
+    from aculink.modem.predict import clear_caches
+
+    try:
+        with threadpool_limits(limits=1, user_api="blas"):
+            return _compute_chunk(job, chunk)
+    finally:
+        clear_caches()  # memory must not grow with the chunks a process has done
 
 
 def _compute_chunk(job: SweepJob, chunk: Chunk) -> dict:
