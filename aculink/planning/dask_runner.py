@@ -61,8 +61,11 @@ def dask_client(*, workers=None, scheduler=None, timeout_s=CONNECT_TIMEOUT_S):
         return
     n = machine_workers() if workers is None else int(workers)
     try:
+        # one numba thread per worker process: the workers already fill the cores, and numba's
+        # own pool on top would oversubscribe them
         cluster = LocalCluster(n_workers=n, threads_per_worker=1, processes=True, host="127.0.0.1",
-                               dashboard_address="127.0.0.1:0", silence_logs=logging.ERROR)
+                               dashboard_address="127.0.0.1:0", silence_logs=logging.ERROR,
+                               env={"NUMBA_NUM_THREADS": "1", "OMP_NUM_THREADS": "1"})
     except RuntimeError as exc:
         # worker processes re-import the calling script: a script that starts a sweep at module
         # level (no main guard) makes every worker fail to start
