@@ -49,6 +49,29 @@ def _decide(zr, zi, pts_r, pts_i):
 
 
 @njit(cache=True, error_model="numpy", inline="always")
+def _decide_and_record(t, zr, zi, theta, n_train, train, pts_r, pts_i, out_zr, out_zi, out_dec,
+                       out_err2, out_theta, dec_r, dec_i):
+    """Symbol t's decision (the training symbol while training), error and outputs, shared by
+    every equalizer loop; returns (decision re, im, error re, im)."""
+    if t < n_train:
+        lab = train[t]
+    else:
+        lab = _decide(zr, zi, pts_r, pts_i)
+    dr = pts_r[lab]
+    di = pts_i[lab]
+    er = dr - zr
+    ei = di - zi
+    out_zr[t] = zr
+    out_zi[t] = zi
+    out_dec[t] = lab
+    out_err2[t] = er * er + ei * ei
+    out_theta[t] = theta
+    dec_r[t] = dr
+    dec_i[t] = di
+    return dr, di, er, ei
+
+
+@njit(cache=True, error_model="numpy", inline="always")
 def _build_regressor(vr, vi, yr, yi, s, n_ff, c, sn, dec_r, dec_i, n, fb_delays):
     for r in range(n_ff):
         a = yr[s + r]
@@ -108,21 +131,8 @@ def rls_dfe(yr, yi, start0, stride, n_sym, n_ff, fb_delays, train, n_train, pts_
             fbi += wr[j] * vi[j] - wi[j] * vr[j]
         zr = ffr + fbr
         zi = ffi + fbi
-        if t < n_train:
-            lab = train[t]
-        else:
-            lab = _decide(zr, zi, pts_r, pts_i)
-        dr = pts_r[lab]
-        di = pts_i[lab]
-        er = dr - zr
-        ei = di - zi
-        out_zr[t] = zr
-        out_zi[t] = zi
-        out_dec[t] = lab
-        out_err2[t] = er * er + ei * ei
-        out_theta[t] = theta
-        dec_r[t] = dr
-        dec_i[t] = di
+        dr, di, er, ei = _decide_and_record(t, zr, zi, theta, n_train, train, pts_r, pts_i,
+                                            out_zr, out_zi, out_dec, out_err2, out_theta, dec_r, dec_i)
         # gain: gamma = lambda + v^H P v (real for Hermitian P)
         g = lam
         for j in range(n):
@@ -227,21 +237,8 @@ def nlms_dfe(yr, yi, start0, stride, n_sym, n_ff, fb_delays, train, n_train, pts
             nrm += vr[j] * vr[j] + vi[j] * vi[j]
         zr = ffr + fbr
         zi = ffi + fbi
-        if t < n_train:
-            lab = train[t]
-        else:
-            lab = _decide(zr, zi, pts_r, pts_i)
-        dr = pts_r[lab]
-        di = pts_i[lab]
-        er = dr - zr
-        ei = di - zi
-        out_zr[t] = zr
-        out_zi[t] = zi
-        out_dec[t] = lab
-        out_err2[t] = er * er + ei * ei
-        out_theta[t] = theta
-        dec_r[t] = dr
-        dec_i[t] = di
+        dr, di, er, ei = _decide_and_record(t, zr, zi, theta, n_train, train, pts_r, pts_i,
+                                            out_zr, out_zi, out_dec, out_err2, out_theta, dec_r, dec_i)
         s = mu / nrm
         for j in range(n):
             wr[j] += s * (vr[j] * er + vi[j] * ei)
@@ -290,21 +287,8 @@ def fixed_dfe(yr, yi, start0, stride, n_sym, n_ff, fb_delays, train, n_train, pt
         fbi *= scale
         zr = ffr + fbr
         zi = ffi + fbi
-        if t < n_train:
-            lab = train[t]
-        else:
-            lab = _decide(zr, zi, pts_r, pts_i)
-        dr = pts_r[lab]
-        di = pts_i[lab]
-        er = dr - zr
-        ei = di - zi
-        out_zr[t] = zr
-        out_zi[t] = zi
-        out_dec[t] = lab
-        out_err2[t] = er * er + ei * ei
-        out_theta[t] = theta
-        dec_r[t] = dr
-        dec_i[t] = di
+        dr, di, er, ei = _decide_and_record(t, zr, zi, theta, n_train, train, pts_r, pts_i,
+                                            out_zr, out_zi, out_dec, out_err2, out_theta, dec_r, dec_i)
         tr = dr - fbr
         ti = di - fbi
         tt = tr * tr + ti * ti
