@@ -14,6 +14,26 @@ from pathlib import Path
 from aculink.errors import AculinkError
 
 
+def check_output_path(path, *, overwrite: bool = True) -> Path:
+    """Refuse, before any work, an output that exists (unless ``overwrite``) or whose folder is
+    missing or not writable; return the folder.
+
+    Raises
+    ------
+    AculinkError
+        Naming the path or folder.
+    """
+    path = Path(path)
+    if not overwrite and path.exists():
+        raise AculinkError(f"{path} exists: pass --overwrite to replace it")
+    folder = path.parent if str(path.parent) else Path(".")
+    if not folder.is_dir():
+        raise AculinkError(f"output folder {folder} does not exist")
+    if not os.access(folder, os.W_OK):
+        raise AculinkError(f"output folder {folder} is not writable")
+    return folder
+
+
 @contextlib.contextmanager
 def atomic_path(path, *, overwrite: bool = True):
     """Yield a temporary path in the target's folder; rename it onto ``path`` on success.
@@ -26,13 +46,7 @@ def atomic_path(path, *, overwrite: bool = True):
         When False and ``path`` exists, raise :class:`AculinkError` before writing anything.
     """
     path = Path(path)
-    if not overwrite and path.exists():
-        raise AculinkError(f"{path} exists: pass --overwrite to replace it")
-    folder = path.parent if str(path.parent) else Path(".")
-    if not folder.is_dir():
-        raise AculinkError(f"output folder {folder} does not exist")
-    if not os.access(folder, os.W_OK):
-        raise AculinkError(f"output folder {folder} is not writable")
+    folder = check_output_path(path, overwrite=overwrite)
     fd, tmp = tempfile.mkstemp(prefix=f".{path.name}.", suffix=".part", dir=folder)
     os.close(fd)
     try:

@@ -22,6 +22,7 @@ import numpy as np
 
 from aculink import __version__
 from aculink.errors import AculinkError, check_array, check_range
+from aculink.io.atomic import check_output_path
 from aculink.planning import search
 from aculink.planning.checkpoint import Checkpoint, parts_folder
 from aculink.planning.dask_runner import run_tasks
@@ -225,15 +226,7 @@ def run_sweep(site, ranges_m, depths_m, out, *, source_depths_m=None, winds_mps=
         finished chunks stay in the checkpoint folder.
     """
     out = Path(out)
-    if out.exists() and not overwrite:
-        raise AculinkError(f"{out} exists: pass --overwrite to replace it")
-    folder = out.parent if str(out.parent) else Path(".")
-    if not folder.is_dir():
-        raise AculinkError(f"output folder {folder} does not exist")
-    import os
-
-    if not os.access(folder, os.W_OK):
-        raise AculinkError(f"output folder {folder} is not writable")
+    check_output_path(out, overwrite=overwrite)
     job, chunk_ranges = prepare_job(site, ranges_m, depths_m, source_depths_m=source_depths_m,
                                     winds_mps=winds_mps, receivers=receivers,
                                     modulations=modulations, symbol_rates_baud=symbol_rates_baud,
