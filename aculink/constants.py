@@ -24,7 +24,7 @@ NOMINAL_SOUND_SPEED_MPS = 1500.0
 DB_PER_WAVELENGTH_PER_LOSS_PARAMETER = 40.0 * 3.141592653589793 * 0.4342944819032518
 
 #: Ratio of wind speed at 19.5 m to wind speed at 10 m for a neutral logarithmic profile with
-#: roughness length 1.5e-4 m (computed from the log law; REFERENCES.md section 5.2 quotes
+#: roughness length 1.5e-4 m (computed from the log law; the same law gives
 #: 1.058-1.062 for z0 = 1e-4 to 2e-4 m). Site files give wind at 10 m.
 WIND_19P5_OVER_10 = 1.06
 

@@ -56,6 +56,30 @@ def check_range(field: str, value, low=None, high=None, *, low_open=False, high_
     return v
 
 
+def check_int(field: str, value, low=None, high=None, *, unit: str = "") -> int:
+    """Validate that ``value`` is a whole number inside ``[low, high]`` and return it as int.
+
+    Accepts Python and numpy integers, and floats with no fractional part (``4000.0``); refuses
+    booleans, fractions, text and non-finite values.
+
+    Raises
+    ------
+    AculinkError
+        Naming ``field``, the value and the allowed range.
+    """
+    lo = "-inf" if low is None else f"{low:d}"
+    hi = "inf" if high is None else f"{high:d}"
+    allowed = f"a whole number in [{lo}, {hi}]{' ' + unit if unit else ''}"
+    if isinstance(value, bool) or not isinstance(value, (int, float)) and not _is_numpy_number(value):
+        raise AculinkError(f"{field} = {value!r}: expected {allowed}")
+    if not isinstance(value, int) and not float(value).is_integer():  # also refuses NaN and inf
+        raise AculinkError(f"{field} = {value!r}: expected {allowed}")
+    n = int(value)
+    if (low is not None and n < low) or (high is not None and n > high):
+        raise AculinkError(f"{field} = {n:d}: allowed range is {allowed}")
+    return n
+
+
 def _is_numpy_number(value) -> bool:
     try:
         import numpy as np

@@ -71,3 +71,79 @@ def test_demo_refuses_a_non_empty_folder(demo_folder, capsys):
     err = capsys.readouterr().err.strip().splitlines()
     assert len(err) == 1 and "--overwrite" in err[0]
     assert (demo_folder / "plan.csv").read_bytes() == before
+
+
+def _bundled_names():
+    from aculink.site.bundled import bundled_site_path
+
+    return sorted(p.stem for p in bundled_site_path("shelf_summer").parent.glob("*.toml"))
+
+
+@pytest.mark.slow
+@pytest.mark.parametrize("name", _bundled_names())
+def test_quick_demo_runs_on_every_bundled_site(name, tmp_path, capsys):
+    """Every bundled site goes through the whole chain: the demo picks ranges and depths in its
+    water (a receiver depth below the seabed at a short range stopped the harbour site before),
+    and prints the conclusion and the caution on stdout (common practice, no source)."""
+    out = tmp_path / name
+    assert main(["demo", "--site", name, "--quick", "--out", str(out)]) == 0
+    captured = capsys.readouterr()
+    assert captured.err == ""  # stage timings go to stdout with the rest
+    for file in EXPECTED:
+        assert (out / file).is_file(), file
+    assert "Caution:" in captured.out
+    assert not [p for p in tmp_path.iterdir() if p.name.startswith(".")]  # no build folder left
+
+
+def test_failed_demo_leaves_no_folder(tmp_path, monkeypatch, capsys):
+    """A step that fails leaves neither the output folder nor its build folder behind; one line on
+    stderr, exit code 2 (common practice, no source)."""
+    from aculink.cli import demo
+    from aculink.errors import AculinkError
+
+    def broken(*args, **kwargs):
+        raise AculinkError("a step failed on purpose")
+
+    monkeypatch.setattr(demo, "step_rays", broken)
+    out = tmp_path / "never"
+    assert main(["demo", "--out", str(out), "--quick"]) == 2
+    err = capsys.readouterr().err.strip().splitlines()
+    assert err == ["aculink: error: a step failed on purpose"]
+    assert list(tmp_path.iterdir()) == []
+
+
+def test_failed_demo_keeps_the_old_folder(tmp_path, monkeypatch, capsys):
+    """With --overwrite, a failure leaves the earlier folder exactly as it was."""
+    from aculink.cli import demo
+    from aculink.errors import AculinkError
+
+    def broken(*args, **kwargs):
+        raise AculinkError("a step failed on purpose")
+
+    monkeypatch.setattr(demo, "step_rays", broken)
+    out = tmp_path / "old"
+    out.mkdir()
+    (out / "keep.txt").write_text("earlier result")
+    assert main(["demo", "--out", str(out), "--quick", "--overwrite"]) == 2
+    assert [p.name for p in tmp_path.iterdir()] == ["old"]
+    assert (out / "keep.txt").read_text() == "earlier result"
+
+
+def test_demo_geometry_stays_in_the_water():
+    """The ranges and depths the demo picks lie inside each bundled site's track and water
+    (contract; no outside source)."""
+    import numpy as np
+
+    from aculink.cli.demo import Geometry
+    from aculink.site.bundled import bundled_site_path
+    from aculink.site.loader import load_site
+
+    for name in _bundled_names():
+        site = load_site(bundled_site_path(name))
+        for quick in (False, True):
+            geo = Geometry(site, quick)
+            bed = np.asarray(site.seabed.depth_at(geo.plan_ranges_m))
+            assert np.all(geo.plan_depth_m < bed), name
+            if site.seabed.range_m.size > 1:
+                assert geo.sweep_ranges_m.max() <= site.seabed.max_range_m
+            assert geo.sweep_depths_m.max() < np.max(site.seabed.depth_at(geo.sweep_ranges_m))

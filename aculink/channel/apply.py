@@ -1,6 +1,6 @@
 """Applying a channel to a complex baseband waveform.
 
-Two methods, chosen by the channel (``shared/PERFORMANCE.md``: for a time-varying channel the
+Two methods, chosen by the channel (measured in ``tests/benchmarks/bench_channel.py``: for a time-varying channel the
 sparse path loop wins by about 7x over block-updated FFTs; for a fixed one FFT overlap-add wins
 above a few tens of paths, and our per-path band-limited windows make it the winner earlier):
 
@@ -40,10 +40,14 @@ from aculink.errors import AculinkError, check_range
 #: signals up to 0.35 of the sample rate, measured against exact band-limited tones).
 FARROW_TAPS = 16
 FARROW_KAISER_BETA = 8.0
-#: Largest phase step of the surface factor between two control samples, rad, at 4 sigma of
-#: the phase rate: the chord of linear interpolation is then within 0.15^2/8 = 0.3% at worst
-#: and about 2e-4 typically.
-_MAX_CONTROL_PHASE_STEP = 0.15
+#: Largest rms phase advance 2 pi nu_rms dt of a scattered gain between two control samples,
+#: rad. Linear interpolation of a process with a Gaussian Doppler spectrum of rms width nu_rms
+#: leaves an rms error of about 0.16 (2 pi nu_rms dt)^2 of its amplitude (chord error
+#: (w dt)^2 / 8 of a tone, rms over the interval, fourth spectral moment 3 nu_rms^4; derived):
+#: 0.1 % at 0.08 rad.
+_MAX_CONTROL_PHASE_STEP = 0.08
+#: Longest control spacing and its granularity, samples (the kernel's run length).
+_MAX_BLOCK, _BLOCK_STEP = 256, 16
 
 
 @functools.lru_cache(maxsize=None)
@@ -51,8 +55,10 @@ def farrow_coefficients():
     """``(k, c)``: tap offsets k (K,) and coefficients c (M+1, K) of the Farrow structure.
 
     ``u(i + mu) ~ sum_m (mu - 1/2)^m sum_k c[m, k] u[i + k]``: a least-squares polynomial fit in
-    mu (Chebyshev-spaced mu on [0, 1]) of the Kaiser-windowed sinc interpolator
-    ``sinc(mu - k) w(mu - k)``.
+    mu of the Kaiser-windowed sinc interpolator ``sinc(mu - k) w(mu - k)``, on Chebyshev-spaced
+    mu over [-m, 1 + m] with the margin m = ``_kernels.FIT_MARGIN`` (the kernel lets a run of
+    one column go a few samples past mu = 1 or below 0; the margin costs 2x in rms error, still
+    about 1e-4 at a quarter of the sample rate and 6e-4 at 0.35).
 
     References
     ----------
@@ -60,7 +66,8 @@ def farrow_coefficients():
     filter design using the I0-sinh window function", Proc. IEEE ISCAS 1974, 20-23 (memory).
     """
     k = np.arange(-FARROW_TAPS // 2 + 1, FARROW_TAPS // 2 + 1)
-    mu = 0.5 - 0.5 * np.cos(np.linspace(0.0, np.pi, 401))
+    m = _kernels.FIT_MARGIN
+    mu = 0.5 - (0.5 + m) * np.cos(np.linspace(0.0, np.pi, 401))
     t = mu[:, None] - k[None, :]
     half = FARROW_TAPS / 2.0
     win = np.i0(FARROW_KAISER_BETA * np.sqrt(np.clip(1.0 - (t / half) ** 2, 0.0, None))) / np.i0(FARROW_KAISER_BETA)
@@ -95,8 +102,10 @@ def _check_input(x, sample_rate_hz, channel):
     arr = np.asarray(x)
     if arr.ndim != 1:
         raise AculinkError(f"x has shape {arr.shape}: expected a 1-D complex baseband waveform")
-    arr = arr.astype(complex)
-    if not np.all(np.isfinite(arr)):
+    arr = np.asarray(arr, dtype=complex)
+    # one sum is finite only if every sample is (NaN and inf propagate); a finite signal whose
+    # sum overflows falls through to the full check
+    if not np.isfinite(arr.sum()) and not np.all(np.isfinite(arr)):
         raise AculinkError("x contains NaN or inf samples")
     return arr, fs
 
@@ -161,14 +170,33 @@ def prefilter(channel, sample_rate_hz):
 
 
 def control_block(channel, sample_rate_hz):
-    """Samples between gain control points: a power of two (at most 256) that keeps the surface
-    phase step between control points small (``_MAX_CONTROL_PHASE_STEP`` at 4 sigma)."""
-    block = 256
+    """Samples between gain control points: a multiple of 16, at most 256, that keeps the rms
+    phase advance of the fastest scattered gain between control points below
+    ``_MAX_CONTROL_PHASE_STEP``."""
+    block = _MAX_BLOCK
     spread = float(np.max(channel.surface_doppler_spread_hz)) if channel.n_paths else 0.0
     if spread > 0:
-        samples = _MAX_CONTROL_PHASE_STEP * sample_rate_hz / (4.0 * 2.0 * np.pi * spread)
-        block = min(block, 1 << int(np.floor(np.log2(max(samples, 1.0)))))
-    return max(block, 1)
+        samples = _MAX_CONTROL_PHASE_STEP * sample_rate_hz / (2.0 * np.pi * spread)
+        block = min(block, int(samples // _BLOCK_STEP) * _BLOCK_STEP)
+        if block < _BLOCK_STEP:
+            block = max(1, 1 << int(np.floor(np.log2(max(samples, 1.0)))))
+    return block
+
+
+def farrow_input(x, taps, c):
+    """Farrow branches (float32 real and imaginary parts) of the prefiltered input.
+
+    The prefilter runs as a single-precision FFT convolution and the branches in float32: the
+    kernel's work per sample is in float32 (twice the SIMD lanes of float64; rounding about 1e-7,
+    far below the interpolator's 1e-4).
+    """
+    u = signal.oaconvolve(x.astype(np.complex64), taps.astype(np.complex64))
+    c32 = np.ascontiguousarray(c, dtype=np.float32)
+    vr = np.empty((c.shape[0], u.size + c.shape[1] - 1), dtype=np.float32)
+    vi = np.empty_like(vr)
+    _kernels.farrow_branches(np.ascontiguousarray(u.real), c32, vr)
+    _kernels.farrow_branches(np.ascontiguousarray(u.imag), c32, vi)
+    return vr, vi
 
 
 def _output_grid(channel, n_in, fs, t0, lead):
@@ -187,10 +215,11 @@ def _output_grid(channel, n_in, fs, t0, lead):
 
 
 def gains_at(channel, times_s, seed):
-    """Complex gain of every path at band centre times the surface factor, (P, T)."""
+    """Complex gain of every path at band centre times its random factor (1 for steady paths,
+    the zero-mean scattered gain z(t) for the sub-paths of a surface cluster), (P, T)."""
     g_fc = channel.gain_at(channel.carrier_hz)[:, 0]
     factors = surface_gain_factors(channel.surface_grazing_sin2_sum, channel.carrier_hz,
-                                   channel.surface, times_s, seed)
+                                   channel.surface, times_s, seed, scattered=channel.scattered)
     return g_fc[:, None] * factors
 
 
@@ -200,11 +229,7 @@ def _apply_varying(channel, x, fs, seed, t0):
     k_hi = int(k[-1])
     # u_full[q] = u(q + lag): the prefiltered input; branch m is u_full convolved with the
     # reversed Farrow row m, so branch column q holds v_m at input index q + lag - k_hi
-    u = signal.oaconvolve(x, taps)
-    vr = np.empty((c.shape[0], u.size + c.shape[1] - 1))
-    vi = np.empty_like(vr)
-    _kernels.farrow_branches(np.ascontiguousarray(u.real), c, vr)
-    _kernels.farrow_branches(np.ascontiguousarray(u.imag), c, vi)
+    vr, vi = farrow_input(x, taps, c)
     offset = k_hi - lag
     lead = taps.size + FARROW_TAPS
     first, n_out = _output_grid(channel, x.size, fs, t0, lead)
@@ -218,10 +243,13 @@ def _apply_varying(channel, x, fs, seed, t0):
     n_ctrl = (n_out + block - 1) // block + 1
     times = t0 + (first + block * np.arange(n_ctrl)) / fs
     g = gains_at(channel, times, seed)
-    out_r = np.zeros(n_out)
-    out_i = np.zeros(n_out)
+    out_r = np.zeros(n_out, dtype=np.float32)
+    out_i = np.zeros(n_out, dtype=np.float32)
     _kernels.apply_time_varying(
         vr, vi, int(offset),
         pos0, a, np.ascontiguousarray(g.real), np.ascontiguousarray(g.imag), int(block), w, ph0,
         out_r, out_i)
-    return out_r + 1j * out_i, t0 + first / fs
+    y = np.empty(n_out, dtype=complex)
+    y.real = out_r
+    y.imag = out_i
+    return y, t0 + first / fs

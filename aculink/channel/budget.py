@@ -5,7 +5,11 @@
 * SL: source level, dB re 1 uPa at 1 m, spread evenly over the band B, so the source spectral
   level is SL - 10 log10(B / 1 Hz), dB re 1 uPa^2/Hz at 1 m.
 * TL(f): incoherent transmission loss of the channel, -10 log10 sum_p |gain_p(f)|^2, dB re 1 m
-  (the path phases of a moving sea are not stable enough to count on their coherent sum).
+  (the path phases of a moving sea are not stable enough to count on their coherent sum). The
+  sum includes the rough surface's scattered sub-paths (:mod:`aculink.channel.scatter`): the
+  energy the Eckart factor takes out of a surface path's coherent reflection arrives as a
+  diffuse cluster and counts as received power (coherent + scattered = incident, Kirchhoff
+  approximation), so TL does not jump where roughness removes a path's coherent part.
 * NL(f): ambient noise, the Wenz-curve fits of :func:`aculink.site.noise.noise_psd_db` for the
   site's shipping and wind, plus the site's ``extra_db``, dB re 1 uPa^2/Hz.
 * DI: the receiver's directivity index, dB.
@@ -28,6 +32,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from aculink.channel.stats import mean_square_transfer
 from aculink.errors import check_range
 from aculink.site.noise import noise_band_level_db, noise_psd_db as _wenz_psd_db
 
@@ -109,7 +114,7 @@ class LinkBudget:
                 "source_level_db": "dB re 1 uPa at 1 m",
                 "source_spectrum_level_db": "dB re 1 uPa^2/Hz at 1 m",
                 "tl_db": "dB re 1 m (incoherent, band-averaged)",
-                "tl_coherent_db": "dB re 1 m (coherent, band-averaged)",
+                "tl_coherent_db": "dB re 1 m (coherent sum of the steady paths plus the scattered power, band-averaged)",
                 "noise_band_db": "dB re 1 uPa^2 (in the band)",
                 "noise_spectrum_level_db": "dB re 1 uPa^2/Hz (band mean)",
                 "directivity_index_db": "dB",
@@ -154,7 +159,7 @@ def link_budget(site, channel) -> LinkBudget:
     else:
         f = channel.band_grid(_N_GRID)
         inc = np.mean(np.sum(np.abs(channel.gain_at(f)) ** 2, axis=0))
-        coh = np.mean(np.abs(channel.transfer_function(f).values) ** 2)
+        coh = np.mean(mean_square_transfer(channel, f))
         with np.errstate(divide="ignore"):
             tl = float(-10.0 * np.log10(inc))
             tl_coh = float(-10.0 * np.log10(coh))

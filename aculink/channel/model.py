@@ -30,11 +30,20 @@ import numpy as np
 import xarray as xr
 
 from aculink.channel import response as _resp
-from aculink.channel.variation import SurfaceMotion, doppler_factors, surface_doppler_spread_hz
+from aculink.channel.pulses import raised_cosine_spectrum
+from aculink.channel.variation import SurfaceMotion, doppler_factors, scattered_doppler_spread_hz
 from aculink.errors import AculinkError, check_range
 
 #: Roll-off of the band taper used by :meth:`Channel.impulse_response` (flat over the band).
 IMPULSE_RESPONSE_ROLLOFF = 0.25
+
+
+class Fluctuation(NamedTuple):
+    """Time-variation model of each path (see :attr:`Channel.fluctuation`)."""
+
+    steady_fraction: np.ndarray
+    doppler_spread_hz: np.ndarray
+    gamma2: np.ndarray
 
 
 class SymbolTaps(NamedTuple):
@@ -65,7 +74,11 @@ class Channel:
     doppler : (P,) Doppler factors a_p (tau_p(t) = tau_p - a_p t).
     surface_bounces, bottom_bounces : (P,) int.
     surface_grazing_sin2_sum : (P,) sum of sin^2 of surface grazing angles.
-    surface_doppler_spread_hz : (P,) RMS Doppler spread from the surface motion.
+    surface_doppler_spread_hz : (P,) RMS Doppler width of a scattered path's random gain (0 for
+        steady paths; computed from the surface when not given).
+    scattered : (P,) bool: the path is a sub-path of a rough-surface cluster
+        (:mod:`aculink.channel.scatter`): zero-mean random gain of that mean power; the others
+        are steady (coherent) paths.
     launch_angle_deg, arrival_angle_deg : (P,) ray angles (NaN when unknown).
     carrier_hz, bandwidth_hz : the band.
     surface : SurfaceMotion or None, for the random surface gains.
@@ -85,6 +98,7 @@ class Channel:
     launch_angle_deg: np.ndarray = None
     arrival_angle_deg: np.ndarray = None
     surface: SurfaceMotion | None = None
+    scattered: np.ndarray = None
     name: str = "channel"
     geometry: dict = field(default_factory=dict)
     reason: str = ""
@@ -126,10 +140,11 @@ class Channel:
             "surface_grazing_sin2_sum": per_path("surface_grazing_sin2_sum", 0.0),
             "launch_angle_deg": per_path("launch_angle_deg", np.nan),
             "arrival_angle_deg": per_path("arrival_angle_deg", np.nan),
+            "scattered": per_path("scattered", False, bool),
         }
         if self.surface_doppler_spread_hz is None:
-            values["surface_doppler_spread_hz"] = surface_doppler_spread_hz(
-                values["surface_grazing_sin2_sum"], fc, self.surface)
+            values["surface_doppler_spread_hz"] = np.where(values["scattered"], scattered_doppler_spread_hz(
+                values["surface_grazing_sin2_sum"], fc, self.surface), 0.0)
         else:
             values["surface_doppler_spread_hz"] = per_path("surface_doppler_spread_hz", 0.0)
         for key, val in values.items():
@@ -227,7 +242,10 @@ class Channel:
                                 site.source.speed_mps, site.receiver.speed_mps, c_s, c_r)
         motion = SurfaceMotion(site.surface.rms_height_m, site.surface.wind_speed_mps, c_top)
         reason = "" if valid.any() else str(arrivals.attrs.get("reason", "no path reaches the receiver"))
-        return cls(
+        from aculink.channel.scatter import add_surface_scatter
+
+        c_mean = float(np.mean(site.water.profile.speed(np.linspace(0.0, site.seabed.max_depth_m, 16))))
+        return add_surface_scatter(cls(
             delay_s=delay[valid], freq_hz=freq, gain=amp, carrier_hz=site.modem.carrier_hz,
             bandwidth_hz=site.modem.bandwidth_hz, doppler=a,
             surface_bounces=take("surface_bounces", 0).astype(np.int64),
@@ -237,7 +255,7 @@ class Channel:
             geometry={"source_depth_m": float(site.source.depth_m), "range_m": r,
                       "receiver_depth_m": z},
             reason=reason,
-        )
+        ), sound_speed_mps=c_mean)
 
     # ------------------------------------------------------------------ basic properties
     @property
@@ -250,11 +268,32 @@ class Channel:
 
     @property
     def is_time_varying(self) -> bool:
-        """True when a path has a Doppler factor or a random surface gain."""
+        """True when a path has a Doppler factor or a random (scattered) gain."""
         moving = bool(np.any(self.doppler != 0.0))
         rough = (self.surface is not None and self.surface.active
-                 and bool(np.any(self.surface_grazing_sin2_sum > 0)))
+                 and bool(np.any(self.scattered & (self.surface_grazing_sin2_sum > 0))))
         return moving or rough
+
+    @property
+    def fluctuation(self) -> "Fluctuation":
+        """Per-path time-variation model for predictions: steady fraction and Doppler width.
+
+        Steady (coherent) paths: fraction 1, width 0. Scattered sub-paths: fraction 0 (zero-mean
+        gain) and the rms width ``surface_doppler_spread_hz``; the gain's correlation at a lag is
+        :func:`aculink.channel.variation.scattered_correlation` of ``gamma2`` and the elevation
+        correlation of ``surface``.
+        """
+        from aculink.channel.variation import surface_phase_std
+
+        live = self.scattered & (self.surface_grazing_sin2_sum > 0)
+        if self.surface is None or not self.surface.active:
+            live = np.zeros(self.n_paths, bool)
+            gamma2 = np.zeros(self.n_paths)
+        else:
+            gamma2 = np.where(live, surface_phase_std(self.surface_grazing_sin2_sum, self.carrier_hz,
+                                                      self.surface) ** 2, 0.0)
+        return Fluctuation(np.where(live, 0.0, 1.0), np.where(live, self.surface_doppler_spread_hz, 0.0),
+                           gamma2)
 
     @property
     def labels(self) -> list[str]:
@@ -277,7 +316,7 @@ class Channel:
         """A channel with only the paths ``index`` (e.g. a boolean mask)."""
         idx = np.arange(self.n_paths)[index]
         per = ("delay_s", "doppler", "surface_bounces", "bottom_bounces", "surface_grazing_sin2_sum",
-               "surface_doppler_spread_hz", "launch_angle_deg", "arrival_angle_deg")
+               "surface_doppler_spread_hz", "launch_angle_deg", "arrival_angle_deg", "scattered")
         kw = {k: getattr(self, k)[idx] for k in per}
         return replace(self, gain=self.gain[idx], **kw)
 
@@ -322,7 +361,7 @@ class Channel:
         beta = (edge / 2.0) / (1.0 + edge / 2.0)
 
         def spectrum(f):
-            return _resp.raised_cosine_spectrum(f, rate, beta) * rate
+            return raised_cosine_spectrum(f / rate, beta)
 
         return spectrum, 0.5 * rate * (1.0 + beta), _resp.window_length(fs, rate, beta)
 
@@ -389,7 +428,7 @@ class Channel:
 
         References
         ----------
-        Proakis and Salehi (2008), sec. 9.2 and ch. 13 (REFERENCES.md section 11):
+        Proakis and Salehi (2008), sec. 9.2 and ch. 13 ([ProakisSalehi2008]):
         h[k] = h(k T + t0).
         """
         rs = check_range("symbol_rate_baud", symbol_rate_baud, 0.0, None, low_open=True, unit="Bd")
@@ -402,7 +441,7 @@ class Channel:
         n = _resp.window_length(fs, rs, beta)
 
         def spectrum(f):
-            return _resp.raised_cosine_spectrum(f, rs, beta)
+            return raised_cosine_spectrum(f / rs, beta) / rs
 
         start, values = self._windows(fs, spectrum, 0.5 * rs * (1 + beta), n)
         first, taps = _resp.assemble(start, values)

@@ -22,55 +22,6 @@ _TAIL_TOLERANCE = 1e-5
 _MAX_WINDOW = 1 << 14
 
 
-def raised_cosine_spectrum(freq_hz, symbol_rate_baud, rolloff):
-    """Raised-cosine spectrum P(f) with P(0) = T, the transform of a pulse with p(0) = 1.
-
-    Parameters
-    ----------
-    freq_hz : array_like
-        Baseband frequency, Hz.
-    symbol_rate_baud : float
-        1/T.
-    rolloff : float
-        Excess bandwidth beta, 0 < beta <= 1.
-
-    Returns
-    -------
-    numpy.ndarray
-        P(f), s.
-
-    References
-    ----------
-    J. G. Proakis and M. Salehi, Digital Communications, 5th ed. (2008), sec. 9.2, the
-    raised-cosine spectrum (REFERENCES.md section 11).
-    """
-    f = np.abs(np.asarray(freq_hz, dtype=float))
-    t = 1.0 / symbol_rate_baud
-    f1 = (1.0 - rolloff) / (2.0 * t)
-    f2 = (1.0 + rolloff) / (2.0 * t)
-    out = np.where(f <= f1, t, 0.0)
-    edge = (f > f1) & (f <= f2)
-    out = np.where(edge, 0.5 * t * (1.0 + np.cos(np.pi * t / rolloff * (f - f1))), out)
-    return out
-
-
-def raised_cosine_pulse(t_s, symbol_rate_baud, rolloff):
-    """Raised-cosine pulse p(t) = sinc(t/T) cos(pi beta t/T) / (1 - 4 beta^2 t^2/T^2).
-
-    The removable singularity at |t| = T/(2 beta) takes its limit (pi/4) sinc(1/(2 beta)).
-
-    References
-    ----------
-    Proakis and Salehi (2008), sec. 9.2 (REFERENCES.md section 11).
-    """
-    x = np.asarray(t_s, dtype=float) * symbol_rate_baud
-    den = 1.0 - (2.0 * rolloff * x) ** 2
-    singular = np.abs(den) < 1e-10
-    safe = np.where(singular, 1.0, den)
-    out = np.sinc(x) * np.cos(np.pi * rolloff * x) / safe
-    return np.where(singular, np.pi / 4.0 * np.sinc(1.0 / (2.0 * rolloff)), out)
-
-
 def window_length(sample_rate_hz, symbol_rate_baud, rolloff):
     """DFT window (samples, a power of two) holding a raised-cosine pulse to ``_TAIL_TOLERANCE``.
 

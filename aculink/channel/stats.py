@@ -10,15 +10,20 @@ Definitions (all from the path list, path power = |gain_p(f)|^2 averaged over th
   frequency correlation function R(df) = sum_p P_p exp(-j 2 pi df tau_p) / sum_p P_p (the Fourier
   transform of the power-delay profile: the correlation of H(f) of a WSSUS channel) falls to 0.5;
   inf when it never does (one path).
-* ``tl_coherent_db``: -10 log10 of the band mean of |H(f)|^2; ``tl_incoherent_db``: -10 log10 of the
-  band mean of sum_p |gain_p(f)|^2 (dB re 1 m).
-* ``doppler_spread_hz``: rms width of the Doppler power spectrum: paths at a_p fc, each
-  widened by its surface spread on the fluctuating fraction 1 - chi_p^2 of its power (the
-  steady fraction chi_p^2 stays at a_p fc); ``doppler_shift_hz`` its power-weighted mean.
+* ``tl_coherent_db``: -10 log10 of the band mean of E|H(f)|^2, the mean over the sea's
+  realisations: |H_steady(f)|^2 of the steady paths' coherent sum plus the power of the
+  scattered sub-paths (zero-mean gains, so their cross terms average out);
+  ``tl_incoherent_db``: -10 log10 of the band mean of sum_p |gain_p(f)|^2 (dB re 1 m). Both
+  include the power the rough surface scatters (:mod:`aculink.channel.scatter`).
+* ``doppler_spread_hz``: rms width of the Doppler power spectrum: paths at a_p fc, the
+  scattered sub-paths widened by their rms Doppler width (steady paths stay at a_p fc);
+  ``doppler_shift_hz`` its power-weighted mean.
 * ``coherence_time_s``: the smallest lag at which |R(dt)| falls to 0.5, with
   R(dt) = sum_p P_p exp(j 2 pi a_p fc dt) rho_p(dt) / sum_p P_p and rho_p the correlation of the
-  surface factor, exp(-s_p^2 (1 - r(dt))) for phase std s_p and elevation correlation r; inf
-  for a channel that does not change (a Doppler shift common to all paths does not count).
+  path's gain: 1 for a steady path, :func:`aculink.channel.variation.scattered_correlation` for a
+  scattered one; inf for a channel that does not change (a Doppler shift common to all paths
+  does not count).
+* ``scattered_fraction``: the share of the incoherent power in scattered sub-paths.
 
 References
 ----------
@@ -33,7 +38,7 @@ from __future__ import annotations
 import numpy as np
 from scipy import optimize
 
-from aculink.channel.variation import surface_phase_std
+from aculink.channel.variation import scattered_correlation
 
 #: Significant-path threshold below the strongest path, dB (common practice, no source).
 SIGNIFICANT_DB = 20.0
@@ -118,8 +123,9 @@ def channel_statistics(channel, *, significant_db=SIGNIFICANT_DB, n_freq=257) ->
     tau = channel.delay_s
     total = power.sum()
     f = channel.band_grid(n_freq)
-    h = channel.transfer_function(f).values
     incoherent = np.mean(np.sum(np.abs(channel.gain_at(f)) ** 2, axis=0))
+    mean_square = np.mean(mean_square_transfer(channel, f))
+    scattered = np.sum(power[channel.scattered]) / total if total > 0 else 0.0
     with np.errstate(divide="ignore"):
         out.update(
             first_delay_s=float(tau[0]),
@@ -129,11 +135,20 @@ def channel_statistics(channel, *, significant_db=SIGNIFICANT_DB, n_freq=257) ->
             spread_99_s=energy_spread(tau, power, 0.99) if total > 0 else np.nan,
             significant_paths=int(np.sum(power >= power.max() * 10 ** (-significant_db / 10))) if total > 0 else 0,
             coherence_bandwidth_hz=coherence_bandwidth(tau, power) if total > 0 else np.nan,
-            tl_coherent_db=float(-10 * np.log10(np.mean(np.abs(h) ** 2))),
+            tl_coherent_db=float(-10 * np.log10(mean_square)),
             tl_incoherent_db=float(-10 * np.log10(incoherent)),
+            scattered_fraction=float(scattered),
         )
     out.update(doppler_statistics(channel))
     return out
+
+
+def mean_square_transfer(channel, freq_hz):
+    """E|H(f)|^2 over the sea's realisations: |sum of steady paths|^2 + scattered power."""
+    g = channel.gain_at(freq_hz)
+    steady = ~channel.scattered
+    h = np.einsum("pq,pq->q", g[steady], np.exp(-2j * np.pi * np.outer(channel.delay_s[steady], freq_hz)))
+    return np.abs(h) ** 2 + np.sum(np.abs(g[channel.scattered]) ** 2, axis=0)
 
 
 def doppler_statistics(channel) -> dict:
@@ -141,16 +156,14 @@ def doppler_statistics(channel) -> dict:
     fc = channel.carrier_hz
     power = path_powers(channel)
     motion = channel.surface
-    rough = motion is not None and motion.active
-    std = surface_phase_std(channel.surface_grazing_sin2_sum, fc, motion) if rough else np.zeros(channel.n_paths)
-    p_tv = power  # the surface factor has unit modulus: mean power is the arrivals' power
-    if p_tv.sum() == 0:
+    fl = channel.fluctuation
+    rough = motion is not None and motion.active and bool(np.any(fl.steady_fraction < 1))
+    if power.sum() == 0:
         return {"doppler_shift_hz": np.nan, "doppler_spread_hz": np.nan, "coherence_time_s": np.nan,
                 "time_varying": False}
-    w = p_tv / p_tv.sum()
+    w = power / power.sum()
     nu = channel.doppler * fc
-    # a steady fraction chi^2 plus a Gaussian of rms width sig on the rest: variance (1 - chi^2) sig^2
-    sig = channel.surface_doppler_spread_hz * np.sqrt(-np.expm1(-np.minimum(std ** 2, 600.0)))
+    sig = fl.doppler_spread_hz
     mean = float(np.sum(w * nu))
     spread = float(np.sqrt(max(np.sum(w * (nu ** 2 + sig ** 2)) - mean ** 2, 0.0)))
     out = {"doppler_shift_hz": mean, "doppler_spread_hz": spread,
@@ -163,7 +176,8 @@ def doppler_statistics(channel) -> dict:
         rho = np.ones((dt.size, nu.size))
         if rough:
             r = motion.elevation_correlation(dt)                  # (T,)
-            rho = np.exp(-np.outer(1.0 - r, std ** 2))
+            live = fl.steady_fraction < 1
+            rho[:, live] = scattered_correlation(fl.gamma2[live][None, :], r[:, None])
         return np.abs((np.exp(2j * np.pi * np.outer(dt, nu - mean)) * rho) @ w)
 
     span = max(float(np.ptp(nu)), spread)

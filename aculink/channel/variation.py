@@ -7,26 +7,26 @@ path leaving it at launch angle theta_s by ``v_s cos(theta_s)`` per second; a re
 (the speeds of sound at the two ends; for a range-independent sea Snell's law makes this
 ``p (v_s - v_r)`` with p the ray parameter).
 
-Surface. A path that touched the surface is given a random phase ``phi_p(t) = 2 k sqrt(S_p)
-eta_p(t)`` with ``k = 2 pi fc / c_surface``, ``S_p`` the sum of sin^2 of its surface grazing
-angles (``surface_grazing_sin2_sum``) and ``eta_p`` a zero-mean Gaussian process with the
-Pierson-Moskowitz frequency spectrum scaled to the site's rms wave height. Each bounce of a path
-would carry an independent elevation process of the same spectrum; their weighted sum is
-Gaussian with the same correlation shape and variance ``4 k^2 sigma^2 S_p``, so one process per
-path is exact in distribution. Different paths are independent (their bounce points are far
-apart compared with the correlation length of the waves: an assumption, stated here).
+Surface. Following the Kirchhoff picture of :mod:`aculink.channel.scatter`, a surface path is
+split into its coherent part (the arrivals' Eckart amplitude ``chi_p gain_smooth``, the mean
+field, held steady) and a diffuse cluster of scattered sub-paths carrying the rest of the
+incident power. Each scattered sub-path's gain is multiplied by the fluctuating part of a phase
+screen,
 
-Energy bookkeeping. The arrivals' amplitudes already include the Eckart coherent factor
-``chi_p = exp(-2 k^2 sigma^2 S_p)``. The time-varying gain is ``gain_p * exp(j phi_p(t))``: a
-unit-modulus fluctuation, so the path's mean power stays the Eckart (coherent) power of the
-arrivals, and its mean complex gain is ``chi_p gain_p`` (``E[exp(j phi)] = chi_p`` for a Gaussian
-phase): of the path's power the fraction ``chi_p^2`` is steady and the rest fluctuates with the
-surface Doppler spread. The energy roughness scatters out of the specular direction is taken as
-lost to the link: it reaches the receiver spread over delay and angle, like reverberation, and a
-coherent receiver cannot use it. Restoring it to the specular path (a pure phase screen, mean
-power of a smooth surface) would give a steep multi-bounce path under a gale its full
-smooth-surface power, fluctuating at the wave frequency, which no sea data support; the choice
-here is the conservative one (our modelling decision, no source).
+    z(t) = (exp(j phi(t)) - chi) / sqrt(1 - chi^2),   phi(t) = 2 k sqrt(S) eta(t),
+
+with ``k = 2 pi fc / c_surface``, ``S`` the sum of sin^2 of the path's surface grazing angles
+(``surface_grazing_sin2_sum``), ``chi = exp(-2 k^2 sigma^2 S)`` and ``eta`` a zero-mean Gaussian
+process with the Pierson-Moskowitz frequency spectrum scaled to the site's rms wave height. Each
+bounce would carry an independent elevation process of the same spectrum; their weighted sum is
+Gaussian with the same correlation shape and variance ``4 k^2 sigma^2 S``, so one process per
+sub-path is exact in distribution. Sub-paths (and paths) are independent of one another: their
+patches of the surface are far apart compared with the correlation length of the waves (an
+assumption, stated here). ``E[z] = 0`` and ``E|z|^2 = 1`` (``E exp(j phi) = chi`` for a Gaussian
+phase), so a cluster's mean power is what :mod:`~aculink.channel.scatter` gave it; its time
+correlation is ``(exp(-Gamma^2 (1 - r(dt))) - chi^2) / (1 - chi^2)`` with ``Gamma^2 = 4 k^2
+sigma^2 S`` and r the normalised elevation correlation (:func:`scattered_correlation`), and its
+rms Doppler width ``2 fc sqrt(S) sigma_w / c / sqrt(1 - chi^2)`` (:func:`scattered_doppler_spread_hz`).
 
 The process is synthesised as ``eta(t) = sum_m A_m cos(w_m t) + B_m sin(w_m t)`` with independent
 normal A_m, B_m of variance ``S(w_m) dw_m`` on a fixed logarithmic grid of ``w_m`` (random
@@ -128,11 +128,11 @@ def surface_phase_std(sin2_sum, carrier_hz, motion: SurfaceMotion):
 
 
 def surface_doppler_spread_hz(sin2_sum, carrier_hz, motion: SurfaceMotion | None):
-    """RMS Doppler spread of each path from the surface motion, Hz.
+    """RMS phase rate of the whole phase-screen factor exp(j phi) of each path, Hz.
 
-    The gain exp(j phi) has constant modulus, so the second moment of its spectrum is the mean
-    square of phi'/(2 pi): ``2 fc sqrt(S_p) v_rms / c`` with v_rms the rms vertical velocity of
-    the surface (a closed form of the model above, for any roughness).
+    The factor has constant modulus, so the second moment of its spectrum is the mean square of
+    phi'/(2 pi): ``2 fc sqrt(S_p) v_rms / c`` with v_rms the rms vertical velocity of the
+    surface, for any roughness (``2 f sin(theta) sigma_w / c`` per bounce).
     """
     s = np.asarray(sin2_sum, dtype=float)
     if motion is None or not motion.active:
@@ -140,8 +140,44 @@ def surface_doppler_spread_hz(sin2_sum, carrier_hz, motion: SurfaceMotion | None
     return 2.0 * carrier_hz * np.sqrt(s) * motion.elevation_velocity_rms_mps() / motion.sound_speed_mps
 
 
-def surface_gain_factors(sin2_sum, carrier_hz, motion: SurfaceMotion | None, times_s, seed):
-    """Random unit-modulus gain factor exp(j phi_p(t)) of every path at ``times_s``.
+def scattered_doppler_spread_hz(sin2_sum, carrier_hz, motion: SurfaceMotion | None):
+    """RMS Doppler width of the scattered gain z(t) of each path, Hz (0 where nothing scatters).
+
+    The spectrum of exp(j phi) is a line of weight chi^2 at 0 plus the scattered part, so the
+    scattered part's second moment is that of the whole factor (:func:`surface_doppler_spread_hz`)
+    divided by ``1 - chi^2``: ``2 fc sqrt(S) v_rms / (c sqrt(1 - exp(-Gamma^2)))``. Limits:
+    ``2 f sqrt(S) v_rms / c`` for a rough surface (Gamma >> 1), the rms wave frequency
+    ``v_rms / (2 pi sigma)`` for a nearly smooth one.
+    """
+    s = np.asarray(sin2_sum, dtype=float)
+    if motion is None or not motion.active:
+        return np.zeros(s.shape)
+    total = surface_doppler_spread_hz(s, carrier_hz, motion)
+    gamma2 = surface_phase_std(s, carrier_hz, motion) ** 2
+    frac = -np.expm1(-gamma2)
+    out = np.zeros(s.shape)
+    live = frac > 0
+    out[live] = total[live] / np.sqrt(frac[live])
+    return out
+
+
+def scattered_correlation(gamma2, elevation_correlation):
+    """Normalised correlation of z(t) at a lag whose elevation correlation is r.
+
+    ``E[z(t + dt) conj z(t)] = (exp(-Gamma^2 (1 - r)) - exp(-Gamma^2)) / (1 - exp(-Gamma^2))``
+    for a Gaussian phase of variance Gamma^2 (characteristic function of the phase difference);
+    broadcasts ``gamma2`` against ``elevation_correlation``.
+    """
+    g2 = np.minimum(np.asarray(gamma2, dtype=float), 600.0)
+    r = np.asarray(elevation_correlation, dtype=float)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        out = -np.expm1(-g2 * r) * np.exp(-g2 * (1.0 - r)) / -np.expm1(-g2)
+    # Gamma -> 0: the limit is r (z -> j phi / Gamma)
+    return np.where(g2 > 1e-12, out, r + 0.0 * g2)
+
+
+def surface_gain_factors(sin2_sum, carrier_hz, motion: SurfaceMotion | None, times_s, seed, scattered=None):
+    """Random gain factor of every path at ``times_s``: z_p(t) for scattered paths, 1 otherwise.
 
     Parameters
     ----------
@@ -152,18 +188,21 @@ def surface_gain_factors(sin2_sum, carrier_hz, motion: SurfaceMotion | None, tim
     times_s : (T,) array
         Absolute times, s.
     seed : int or numpy.random.Generator or None
+    scattered : (P,) bool array, optional
+        Which paths are scattered sub-paths (default none: every factor is 1).
 
     Returns
     -------
     (P, T) complex ndarray
-        1 for paths without a surface bounce or a calm sea; seeded and reproducible.
+        ``z_p(t)`` (zero mean, unit power) for scattered paths, 1 for the others (steady);
+        seeded and reproducible.
     """
     s = np.asarray(sin2_sum, dtype=float)
     t = np.asarray(times_s, dtype=float)
     out = np.ones((s.size, t.size), dtype=complex)
-    if motion is None or not motion.active:
+    if motion is None or not motion.active or scattered is None:
         return out
-    rough = np.flatnonzero(s > 0)
+    rough = np.flatnonzero((s > 0) & np.asarray(scattered, dtype=bool))
     if rough.size == 0:
         return out
     rng = np.random.default_rng(seed)
@@ -174,36 +213,46 @@ def surface_gain_factors(sin2_sum, carrier_hz, motion: SurfaceMotion | None, tim
     eta = _evaluate_process(a[rough], b[rough], w, t)
     std = surface_phase_std(s[rough], carrier_hz, motion)
     scale = std / motion.rms_height_m
-    # unit modulus: the path keeps the Eckart power of the arrivals (see the module notes)
-    out[rough] = np.exp(1j * scale[:, None] * eta)
+    chi = np.exp(-0.5 * std ** 2)[:, None]
+    norm = np.sqrt(-np.expm1(-std ** 2))[:, None]
+    # zero mean, unit power: the cluster keeps the scattered power it was given
+    out[rough] = (np.exp(1j * scale[:, None] * eta) - chi) / norm
     return out
 
 
 def _evaluate_process(a, b, w, t):
-    """Sum of the spectral components at times t, on a coarse grid and linearly interpolated.
+    """Sum of the spectral components at times t.
 
-    The fastest component is sampled 32 times per period, so linear interpolation is within
-    (2 pi / 32)^2 / 8 = 0.5% of that (weakest) component's amplitude.
+    On a uniform time grid (the control grid of :func:`aculink.channel.apply.apply_channel`)
+    the components are advanced by a running product, exactly; otherwise they are evaluated
+    on a coarse uniform grid and linearly interpolated: the fastest component is sampled 32
+    times per period, so linear interpolation is within (2 pi / 32)^2 / 8 = 0.5% of that
+    (weakest) component's amplitude.
     """
     if t.size == 0:
         return np.zeros((a.shape[0], 0))
-    step = 2.0 * np.pi / w.max() / 32.0
     t0, t1 = float(t.min()), float(t.max())
+    if t.size > 2:
+        d = np.diff(t)
+        if d[0] > 0 and np.all(np.abs(d - d[0]) <= 1e-9 * d[0]):
+            return _uniform_sum(a, b, w, float(t[0]), float(d[0]), t.size)
+    step = 2.0 * np.pi / w.max() / 32.0
     n = int(np.ceil((t1 - t0) / step)) + 2
     if n >= t.size:
-        grid = t
-    else:
-        grid = t0 + step * np.arange(n)
-    if grid is t:
-        phase = np.multiply.outer(w, grid)
+        phase = np.multiply.outer(w, t)
         return a @ np.cos(phase) + b @ np.sin(phase)
-    # uniform grid: exp(j w t_k) by a running product (rounding grows as k eps, < 1e-11 here)
-    rot = np.empty((w.size, grid.size), dtype=complex)
-    rot[:, 0] = np.exp(1j * w * grid[0])
-    rot[:, 1:] = np.exp(1j * w * step)[:, None]
-    rot = np.cumprod(rot, axis=1)
-    eta = ((a - 1j * b) @ rot).real
+    eta = _uniform_sum(a, b, w, t0, step, n)
     pos = (t - t0) / step
     i0 = np.clip(np.floor(pos).astype(np.int64), 0, n - 2)
     frac = pos - i0
     return eta[:, i0] * (1.0 - frac) + eta[:, i0 + 1] * frac
+
+
+def _uniform_sum(a, b, w, start, step, n):
+    """``sum_m a_m cos(w_m t_k) + b_m sin(w_m t_k)`` at ``t_k = start + k step``, k < n:
+    exp(j w t_k) by a running product (rounding grows as k eps, about 1e-10 at a million)."""
+    rot = np.empty((w.size, n), dtype=complex)
+    rot[:, 0] = np.exp(1j * w * start)
+    rot[:, 1:] = np.exp(1j * w * step)[:, None]
+    rot = np.cumprod(rot, axis=1)
+    return ((a - 1j * b) @ rot).real

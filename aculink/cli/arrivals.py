@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from aculink.cli._common import add_site_argument, load_site_arg, print_json
+from aculink.cli._common import add_site_argument, check_output_option, check_plot_path, load_site_arg, print_json
 
 from aculink.cautions import CAUTION_LINE as CAUTION
 
@@ -27,6 +27,9 @@ def register(subparsers) -> None:
     parser.add_argument("--dynamic-range-db", type=float, default=40.0, metavar="DB",
                         help="drop arrivals this far below the strongest (default 40 dB)")
     parser.add_argument("--json", action="store_true", help="print the arrivals as one JSON object")
+    parser.add_argument("--csv", metavar="FILE.csv", help="also write the arrivals to this CSV file")
+    parser.add_argument("--plot", metavar="FILE.png", help="draw level against delay to this PNG file")
+    parser.add_argument("--overwrite", action="store_true", help="replace an existing --csv or --plot file")
     parser.set_defaults(func=run)
 
 
@@ -83,15 +86,36 @@ def format_table(summary) -> str:
     return "\n".join(lines)
 
 
+#: Columns of ``arrivals --csv``, in order.
+CSV_KEYS = ("delay_s", "relative_delay_s", "level_db", "amplitude", "phase_rad", "launch_angle_deg",
+            "arrival_angle_deg", "surface_bounces", "bottom_bounces", "caustics", "path_length_m", "absorption_db")
+
+
 def run(args) -> int:
     from aculink.propagation.eigenrays import solve_arrivals
 
-    site = load_site_arg(args.site)
+    check_plot_path(args)
+    check_output_option(args, "csv", ".csv")
+    site = load_site_arg(args.site, args)
     summary = arrivals_table(*solve_arrivals(site, args.range_m, args.depth_m, args.frequency_hz,
                                              source_depth_m=args.source_depth_m,
                                              dynamic_range_db=args.dynamic_range_db))
+    written = []
+    if args.csv:
+        from aculink.io.tables import write_csv
+
+        write_csv(args.csv, CSV_KEYS, summary["arrivals"])
+        written.append(args.csv)
+    if args.plot:
+        from aculink.plots.arrivals import plot_arrivals
+
+        plot_arrivals(summary, args.plot, site=site)
+        written.append(args.plot)
     if args.json:
+        summary["files"] = written
         print_json(summary)
     else:
         print(format_table(summary))
+        for path in written:
+            print(f"Written: {path}")
     return 0

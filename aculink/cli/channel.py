@@ -123,7 +123,7 @@ def run(args) -> int:
     from aculink.channel import channel_for_site, link_budget
 
     check_plot_path(args)
-    site = load_site_arg(args.site)
+    site = load_site_arg(args.site, args)
     channel = channel_for_site(site, args.range_m, args.depth_m)
     budget = link_budget(site, channel)
     rep = report(site, channel, budget)

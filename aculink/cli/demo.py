@@ -20,55 +20,129 @@ def register(subparsers) -> None:
         "demo", help="run the whole chain on a bundled site and write a folder of results with index.html",
         description="Runs site -> rays -> arrivals -> channel -> receivers -> range-versus-rate table -> "
         "range x depth sweep on a bundled example site, writes pictures, tables, NetCDF and an "
-        "index.html page into the output folder, and prints a short conclusion. Planning "
-        "estimates only.")
+        "index.html page into the output folder, and prints a short conclusion. Ranges and depths are "
+        "chosen from the site (its track, seabed and receiver). The folder appears only when every "
+        "step has succeeded. Planning estimates only.")
     p.add_argument("--out", default=DEFAULT_OUT, metavar="DIR", help=f"output folder (default ./{DEFAULT_OUT})")
     p.add_argument("--site", default=DEFAULT_SITE, metavar="NAME",
                    help=f"bundled site to run on (default {DEFAULT_SITE}); see environments/")
-    p.add_argument("--overwrite", action="store_true", help="write into an existing, non-empty folder")
+    p.add_argument("--overwrite", action="store_true", help="replace an existing, non-empty folder")
     p.add_argument("--seed", type=int, default=0, help="seed of the Monte Carlo runs (default 0)")
+    p.add_argument("--quick", action="store_true",
+                   help="smaller grids and shorter Monte Carlo runs (a check that everything works, in seconds)")
+    p.add_argument("--quiet", action="store_true", help="print only the conclusion and the caution")
     p.set_defaults(func=run)
 
 
-def prepare_folder(out: Path, overwrite: bool) -> Path:
+def check_folder(out: Path, overwrite: bool) -> Path:
+    """Refuse, before any work, an output that is a file or a non-empty folder (without --overwrite)."""
     from aculink.errors import AculinkError
 
     if out.exists() and not out.is_dir():
         raise AculinkError(f"--out {out} exists and is not a folder")
     if out.is_dir() and any(out.iterdir()) and not overwrite:
         raise AculinkError(f"--out {out} exists and is not empty: pass --overwrite or choose another folder")
-    try:
-        out.mkdir(parents=True, exist_ok=True)
-    except OSError as exc:
-        raise AculinkError(f"--out {out}: cannot create the folder ({exc.strerror})") from None
+    parent = out.parent if str(out.parent) else Path(".")
+    if not parent.is_dir():
+        raise AculinkError(f"--out {out}: the folder {parent} does not exist")
     return out
 
 
+def build_folder(out: Path):
+    """A new hidden folder beside ``out`` to build the results in."""
+    import tempfile
+
+    from aculink.errors import AculinkError
+
+    try:
+        return Path(tempfile.mkdtemp(prefix=f".{out.name}.", suffix=".part", dir=out.parent))
+    except OSError as exc:
+        raise AculinkError(f"--out {out}: cannot create a folder in {out.parent} ({exc.strerror})") from None
+
+
+def publish_folder(tmp: Path, out: Path) -> None:
+    """Put the finished folder in place of ``out`` (an old one is removed only after the swap)."""
+    import os
+    import shutil
+
+    from aculink.io.atomic import current_umask
+
+    os.chmod(tmp, 0o777 & ~current_umask())  # mkdtemp makes it private
+    old = None
+    if out.exists():
+        old = out.with_name(f".{out.name}.old-{os.getpid()}")
+        os.replace(out, old)
+    os.replace(tmp, out)
+    if old is not None:
+        shutil.rmtree(old, ignore_errors=True)
+
+
+class Geometry:
+    """Where the demo looks, chosen from the site: ranges along its track, depths in its water."""
+
+    def __init__(self, site, quick: bool = False):
+        import numpy as np
+
+        bed, rx = site.seabed, site.receiver
+        end = min(2.5 * rx.range_m, 10000.0)
+        if bed.range_m.size > 1:
+            end = min(end, float(bed.max_range_m))
+        self.fan_range_m = min(1.25 * rx.range_m, end) if bed.range_m.size > 1 else 1.25 * rx.range_m
+        n_plan = 6 if quick else 20
+        ranges = np.linspace(end / n_plan, end, n_plan)
+        # the table is at the receiver's depth: keep the ranges where the water is deep enough
+        clearance = max(0.5, 0.05 * rx.depth_m)
+        deep = np.asarray(bed.depth_at(ranges), dtype=float) > rx.depth_m + clearance
+        if deep.sum() >= 2:
+            self.plan_ranges_m, self.plan_depth_m = ranges[deep], rx.depth_m
+        else:
+            self.plan_ranges_m = ranges
+            self.plan_depth_m = round(0.5 * float(np.min(bed.depth_at(ranges))), 1)
+        n_r, n_z = (4, 3) if quick else (8, 5)
+        self.sweep_ranges_m = np.linspace(end / n_r, end, n_r)
+        bottom = np.asarray(bed.depth_at(self.sweep_ranges_m), dtype=float)
+        # depths over the deepest water swept: cells under the seabed nearer in are marked as such
+        self.sweep_depths_m = np.round(np.linspace(0.1, 0.9, n_z) * float(bottom.max()), 1)
+        self.fan_angles_deg = np.linspace(-15.0, 15.0, 31 if quick else 61)
+        self.symbols = 1000 if quick else 4000
+        self.snrs_db = np.arange(4.0, 25.0, 10.0 if quick else 4.0)
+
+
 def run(args) -> int:
-    from aculink.cautions import CAUTION
+    from aculink.cautions import CAUTION_LINE
     from aculink.io.report import write_index
     from aculink.site.bundled import bundled_site_path
     from aculink.site.loader import load_site
 
-    out = prepare_folder(Path(args.out), args.overwrite)
+    out = check_folder(Path(args.out), args.overwrite)
     site = load_site(bundled_site_path(args.site))
+    args._geometry = Geometry(site, args.quick)
+    say = (lambda *a, **k: None) if args.quiet else print
     started = time.perf_counter()
     sections = []
-    for step in (step_site, step_rays, step_arrivals, step_channel, step_plan, step_receivers, step_sweep):
-        t0 = time.perf_counter()
-        new = step(site, out, args, sections)
-        sections.extend(new)
-        print(f"  {step.__name__.removeprefix('step_'):<10} {time.perf_counter() - t0:5.1f} s  "
-              + ", ".join(name for _, _, name in new), file=sys.stderr)
-    text = conclusion(site, out)
-    write_index(out, f"aculink demo: {site.name}", sections, conclusion=text, caution=CAUTION)
-    print(f"Wrote {len(sections) + 1} files into {out}/ in {time.perf_counter() - started:.0f} s:")
+    tmp = build_folder(out)
+    try:
+        for step in (step_site, step_rays, step_arrivals, step_channel, step_plan, step_receivers, step_sweep):
+            t0 = time.perf_counter()
+            new = step(site, tmp, args, sections)
+            sections.extend(new)
+            say(f"  {step.__name__.removeprefix('step_'):<10} {time.perf_counter() - t0:5.1f} s  "
+                + ", ".join(name for _, _, name in new), flush=True)
+        text = conclusion(site, tmp, args._geometry)
+        write_index(tmp, f"aculink demo: {site.name}", sections, conclusion=text, caution=CAUTION_LINE)
+        publish_folder(tmp, out)
+    except BaseException:
+        import shutil
+
+        shutil.rmtree(tmp, ignore_errors=True)
+        raise
+    say(f"Wrote {len(sections) + 1} files into {out}/ in {time.perf_counter() - started:.0f} s:")
     for heading, _, name in sections:
-        print(f"  {name:<22} {heading}")
-    print(f"  {'index.html':<22} all of the above on one page")
-    print()
+        say(f"  {name:<22} {heading}")
+    say(f"  {'index.html':<22} all of the above on one page")
+    say()
     print(text)
-    print(f"Caution: {CAUTION}")
+    print(CAUTION_LINE)
     return 0
 
 
@@ -90,12 +164,16 @@ def step_site(site, out, args, done):
 def step_rays(site, out, args, done):
     import numpy as np
 
+    from aculink.cli.rays import eigenray_fan
     from aculink.plots.rays import plot_rays
     from aculink.propagation import trace_rays
 
-    fan = trace_rays(site, angles_deg=np.linspace(-15.0, 15.0, 61), max_range_m=site.receiver.range_m * 1.25)
-    plot_rays(site, fan, out / "rays.png")
-    return [("Ray fan", "Rays launched every half degree from the source, coloured by bounce history: "
+    geo = args._geometry
+    fan = trace_rays(site, angles_deg=geo.fan_angles_deg, max_range_m=geo.fan_range_m)
+    plot_rays(site, fan, out / "rays.png", eigenrays=eigenray_fan(site, fan))
+    step = np.diff(geo.fan_angles_deg)[0]
+    return [("Ray fan", f"Rays launched every {step:g} degree from the source, each shaded by its level below the "
+             "strongest ray at the same range, eigenrays to the receiver in black: "
              "how the profile bends sound and where it meets the boundaries", "rays.png")]
 
 
@@ -133,17 +211,14 @@ def step_channel(site, out, args, done):
 
 
 def step_plan(site, out, args, done):
-    import numpy as np
-
     from aculink.cli.plan import display_row, heading, table_columns
     from aculink.io.atomic import write_text_atomic
     from aculink.io.tables import format_table, write_csv
     from aculink.planning.table import ROW_KEYS, plan_rates, plan_rows
     from aculink.plots.plan import plot_plan
 
-    stop = min(10000.0, site.seabed.max_range_m)
-    ranges = np.arange(500.0, stop + 1.0, 500.0)
-    ds = plan_rates(site, ranges)
+    geo = args._geometry
+    ds = plan_rates(site, geo.plan_ranges_m, depth_m=geo.plan_depth_m)
     rows = plan_rows(ds)
     text = heading(site, ds) + "\n" + format_table(table_columns(False), [display_row(r) for r in rows])
     write_text_atomic(out / "plan.txt", text + "\n")
@@ -167,14 +242,14 @@ def step_receivers(site, out, args, done):
 
     channel = args._channel
     rate = demo_symbol_rate(site, args._plan)
-    snrs = np.arange(4.0, 25.0, 4.0)
+    snrs = args._geometry.snrs_db
     receivers = ["none", "linear", "dfe"]
     names = ("ber", "ber_low", "ber_high", "ber_predicted")
     data = {k: np.zeros((len(receivers), snrs.size)) for k in names}
     for i, rx in enumerate(receivers):
         for j, snr in enumerate(snrs):
             r = simulate_link(channel, symbol_rate_baud=rate, modulation="qpsk", receiver=rx, snr_db=float(snr),
-                              rolloff=site.modem.rolloff, n_symbols=4000, max_errors=100,
+                              rolloff=site.modem.rolloff, n_symbols=args._geometry.symbols, max_errors=100,
                               seed=args.seed + 100 * i + j)
             for k in names:
                 data[k][i, j] = getattr(r, k)
@@ -193,17 +268,14 @@ def step_receivers(site, out, args, done):
 
 
 def step_sweep(site, out, args, done):
-    import numpy as np
     import xarray as xr
 
     from aculink.planning import run_sweep
     from aculink.plots.plan import plot_rate_map
 
-    stop = min(8000.0, site.seabed.max_range_m)
-    ranges = np.linspace(1000.0, stop, 8)
-    bottom = float(np.min(site.seabed.depth_at(ranges)))
-    depths = np.linspace(5.0, bottom - 5.0, 5)
-    run_sweep(site, ranges, depths, out / "sweep.nc", workers=1, quiet=True, overwrite=True)
+    geo = args._geometry
+    run_sweep(site, geo.sweep_ranges_m, geo.sweep_depths_m, out / "sweep.nc", workers=1, quiet=True,
+              overwrite=True)
     with xr.open_dataset(out / "sweep.nc") as ds:
         plot_rate_map(ds.load(), site, out / "sweep.png")
     return [("Range x depth sweep (NetCDF)", "Best net bit rate and its configuration over a small range x "
@@ -223,7 +295,7 @@ def demo_symbol_rate(site, plan) -> float:
     return float(site.modem.bandwidth_hz / (1.0 + site.modem.rolloff) / 2.0)
 
 
-def conclusion(site, out) -> str:
+def conclusion(site, out, geometry) -> str:
     """Two sentences a planner can act on, from the table just written."""
     import csv
 
@@ -237,21 +309,21 @@ def conclusion(site, out) -> str:
                  f"{float(at['symbol_rate_baud']):,.0f} Bd and {float(at['margin_db']):.1f} dB of margin.")
     else:
         first = f"At {rng:g} km no configuration meets the target BER with the margin."
-    return first + " " + no_equalizer_reach(site)
+    return first + " " + no_equalizer_reach(site, geometry)
 
 
-def no_equalizer_reach(site) -> str:
+def no_equalizer_reach(site, geometry) -> str:
     """Where the receiver without equalizer stops being workable, from a table for it alone."""
     import numpy as np
 
     from aculink.planning.table import plan_rates
 
-    stop = min(10000.0, site.seabed.max_range_m)
-    ds = plan_rates(site, np.arange(500.0, stop + 1.0, 500.0), receivers=["none"])
+    ds = plan_rates(site, geometry.plan_ranges_m, depth_m=geometry.plan_depth_m, receivers=["none"])
     ok = np.nan_to_num(ds["net_bit_rate_bps"].values) > 0
     r = ds["range"].values / 1000.0
     if not ok.any():
-        return "The receiver without equalizer fails at every range from 0.5 km: the multipath needs an equalizer."
+        return (f"The receiver without equalizer fails at every range from {r[0]:g} km: the multipath needs an "
+                "equalizer.")
     if ok.all():
         return f"The receiver without equalizer still works out to {r[-1]:g} km here."
     last = r[np.nonzero(ok)[0][-1]]

@@ -16,7 +16,9 @@ def register(subparsers) -> None:
         description="Send frames of training and random data through the site's channel (or a "
         "channel file) with the budget's coloured noise, receive them with the chosen receiver "
         "(none, linear, dfe, mmse-dfe) and report the bit error rate with its 95% interval, the "
-        "measured and predicted output SNR, the training overhead and the net bit rate.",
+        "measured and predicted output SNR, the training overhead and whether the link closed: "
+        "the net bit rate when it did, and why not (BER above the target, lost frames, a "
+        "receiver that diverged or lost lock) when it did not.",
     )
     add_site_argument(parser, optional=True)
     parser.add_argument("--range-m", type=float, default=None, metavar="R", help="receiver range, m")
@@ -46,7 +48,7 @@ def _channel_and_budget(args):
     from aculink.channel import channel_for_site, link_budget, load_channel_file
     from aculink.errors import AculinkError
 
-    site = load_site_arg(args.site) if args.site else None
+    site = load_site_arg(args.site, args) if args.site else None
     if args.channel_file:
         fc = args.carrier_hz if args.carrier_hz is not None else (site.modem.carrier_hz if site else None)
         bw = args.bandwidth_hz if args.bandwidth_hz is not None else (site.modem.bandwidth_hz if site else None)
@@ -62,7 +64,16 @@ def _channel_and_budget(args):
         budget = link_budget(site, channel)
         if budget.no_path:
             raise AculinkError(f"no acoustic path reaches the receiver: {budget.reason or 'no eigenray'}")
+        if args.channel_file and budget.tl_db < RELATIVE_TL_DB:
+            raise AculinkError(
+                f"--channel-file {args.channel_file}: its gains give {budget.tl_db:.1f} dB of transmission loss "
+                f"(spherical spreading alone is {RELATIVE_TL_DB:g} dB at 10 m), so they look relative, not re 1 m "
+                f"from the source; give --snr-db for the band SNR instead of the site's budget")
     return site, channel, budget
+
+
+#: Less transmission loss than spreading to 10 m: a tap file's gains are relative, not re 1 m.
+RELATIVE_TL_DB = 20.0
 
 
 def report(site, channel, result) -> dict:
@@ -74,10 +85,26 @@ def report(site, channel, result) -> dict:
     out["units"] = {"snr_in_db": "dB (band SNR: received power / noise power in the band)",
                     "es_n0_db": "dB (received Es/N0)", "snr_out_db": "dB (measured, unbiased)",
                     "snr_predicted_db": "dB (finite-length MMSE estimate of this receiver)",
-                    "net_bit_rate_bps": "bit/s", "symbol_rate_baud": "Bd",
+                    "net_bit_rate_bps": "bit/s (0 when the link did not close; see failure)",
+                    "frame_bit_rate_bps": "bit/s (what the frame would carry if the link closed)",
+                    "symbol_rate_baud": "Bd",
+                    "doppler_bound": "1 (largest time scale searched: platform and surface motion)",
                     "training_fraction": "1 (training, tail marker and guard over the frame)"}
     out["caution"] = CAUTION
     return out
+
+
+def sent_text(rep: dict) -> str:
+    """How many symbols went out and why that differs from --symbols (whole frames, early stop)."""
+    frames, payload = rep["frames"], rep["n_payload"]
+    total = frames * (rep["n_training"] + payload)
+    text = f"{frames} frame{'s' if frames != 1 else ''} = {total} symbols ({frames * payload} payload)"
+    asked = rep.get("symbols_requested")
+    if asked is not None and frames * payload > asked:
+        text += f"; --symbols {asked} is rounded up to whole frames of {payload} payload symbols"
+    elif asked is not None and frames * payload < asked:
+        text += f"; stopped before --symbols {asked} once --max-errors bit errors were counted"
+    return text
 
 
 def format_report(rep: dict) -> str:
@@ -93,6 +120,7 @@ def format_report(rep: dict) -> str:
          + f", {rep['n_ff']} feedforward (T/2) and {rep['n_fb']} feedback taps"),
         ("Frame", f"{rep['n_training']} training + {rep['n_payload']} payload symbols; overhead "
                   f"{100 * rep['training_fraction']:.1f} %"),
+        ("Sent", sent_text(rep)),
         ("Band SNR in", db(rep["snr_in_db"])),
         ("Es/N0 received", db(rep["es_n0_db"])),
         ("Output SNR measured", db(rep["snr_out_db"])),
@@ -100,9 +128,20 @@ def format_report(rep: dict) -> str:
         ("BER", f"{rep['ber']:.3g}  (95% interval {rep['ber_low']:.3g} to {rep['ber_high']:.3g}; "
                 f"{rep['bit_errors']} errors in {rep['bits']} bits, {rep['frames']} frames)"),
         ("BER predicted", f"{rep['ber_predicted']:.3g}"),
-        ("Net bit rate", f"{rep['net_bit_rate_bps']:.0f} bit/s"),
-        ("Doppler estimate", f"{rep['doppler_estimate']:.2e} (time scale)"),
     ]
+    if rep["closed"]:
+        rows.append(("Link", f"closed: measured BER at or below the target {rep['target_ber']:.3g}"))
+        rows.append(("Net bit rate", f"{rep['net_bit_rate_bps']:.0f} bit/s"))
+    else:
+        rows.append(("Link", f"DID NOT CLOSE: {rep['failure']}"))
+        rows.append(("Net bit rate", "none (the link did not close)"))
+    if rep["frames_lost"] or rep["frames_diverged"] or rep["recoveries"]:
+        rows.append(("Frames", f"{rep['frames_lost']} lost, {rep['frames_diverged']} diverged or out of lock, "
+                               f"{rep['recoveries']} divergences recovered"))
+    dopp = f"{rep['doppler_estimate']:.2e} (time scale; searched within +-{rep['doppler_bound']:.1e})"
+    if rep.get("doppler_note"):
+        dopp += f"; not applied: {rep['doppler_note']}"
+    rows.append(("Doppler estimate", dopp))
     width = max(len(k) for k, _ in rows)
     return "\n".join([f"{k:<{width}}  {v}" for k, v in rows] + ["", rep["caution"]])
 
@@ -115,8 +154,10 @@ def run(args) -> int:
     result = simulate_link(channel, symbol_rate_baud=args.rate_baud, modulation=args.modulation,
                            receiver=args.receiver, budget=budget, snr_db=args.snr_db, rolloff=rolloff,
                            n_symbols=args.symbols, max_errors=args.max_errors, seed=args.seed,
-                           algorithm=args.algorithm, sparse=args.sparse)
+                           algorithm=args.algorithm, sparse=args.sparse,
+                           target_ber=site.modem.target_ber if site else None)
     rep = report(site, channel, result)
+    rep["symbols_requested"] = args.symbols
     if args.plot:
         from aculink.plots.link import plot_link
 

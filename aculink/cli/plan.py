@@ -30,6 +30,17 @@ def register(subparsers) -> None:
     p.add_argument("--verify", action="store_true",
                    help="re-run each chosen configuration by Monte Carlo and flag disagreement")
     p.add_argument("--seed", type=int, default=0, help="seed of the --verify runs (default 0)")
+    p.add_argument("--verify-max-bits", type=int, default=None, metavar="N",
+                   help="most bits simulated per row by --verify (default: ten times what an error-free "
+                   "run needs to show the target is met, at most 2,000,000)")
+    p.add_argument("--availability", type=float, default=None, metavar="P",
+                   help="the rate available with probability P (0 < P < 1) over what the site's "
+                   "[variability] section lets vary: a table of rates at 50/90/99 %% and P, the "
+                   "closure probability with its interval, the median and nominal rates, and which "
+                   "factor the spread comes from")
+    p.add_argument("--members", type=int, default=64, metavar="N",
+                   help="with --availability: most ensemble members to draw (default 64; a discrete "
+                   "ensemble no larger than N is enumerated exactly)")
     p.add_argument("--csv", default=None, metavar="FILE", help="also write the table as CSV")
     p.add_argument("--plot", default=None, metavar="FILE.png", help="draw rate against range")
     p.add_argument("--overwrite", action="store_true", help="replace existing --csv/--plot files")
@@ -71,15 +82,17 @@ def run(args) -> int:
     from aculink.planning.table import ROW_KEYS, VERIFY_KEYS, plan_rates, plan_rows
 
     _outputs_free(args)
-    site = load_site_arg(args.site)
+    site = load_site_arg(args.site, args)
     if args.ranges_m is None:
         ranges = default_ranges(site, site.receiver.depth_m if args.depth_m is None else args.depth_m)
     else:
         ranges = parse_span(args.ranges_m, "--ranges-m", positive=True)
     receivers = args.receiver if args.receiver == "all" else [args.receiver]
+    if args.availability is not None:
+        return run_availability(args, site, ranges, receivers)
     ds = plan_rates(site, ranges, depth_m=args.depth_m, receivers=receivers,
                     target_ber=args.target_ber, margin_db=args.margin_db, verify=args.verify,
-                    seed=args.seed)
+                    seed=args.seed, verify_max_bits=args.verify_max_bits)
     rows = plan_rows(ds)
     keys = ROW_KEYS + ("error",) + (VERIFY_KEYS if args.verify else ())
     if args.csv:
@@ -89,10 +102,14 @@ def run(args) -> int:
 
         plot_plan(ds, site, args.plot)
     if args.json:
-        print_json({"site": site.name, "receiver_depth_m": ds.attrs["receiver_depth_m"],
-                    "source_depth_m": ds.attrs["source_depth_m"],
-                    "target_ber": ds.attrs["target_ber"], "margin_db": ds.attrs["margin_db"],
-                    "receivers": list(ds["receiver"].values), "caution": CAUTION, "rows": rows})
+        doc = {"site": site.name, "receiver_depth_m": ds.attrs["receiver_depth_m"],
+               "source_depth_m": ds.attrs["source_depth_m"],
+               "target_ber": ds.attrs["target_ber"], "margin_db": ds.attrs["margin_db"],
+               "receivers": list(ds["receiver"].values), "caution": CAUTION, "rows": rows}
+        if args.verify:
+            doc["verify"] = {"seed": ds.attrs["verify_seed"], "confidence": ds.attrs["verify_confidence"],
+                             "tolerance_db": ds.attrs["verify_tolerance_db"]}
+        print_json(doc)
         return 0
     print(heading(site, ds))
     print(format_table(table_columns(args.verify), [display_row(r) for r in rows]))
@@ -100,11 +117,8 @@ def run(args) -> int:
         if r["error"]:
             print(f"  {r['range_m'] / 1000:g} km: {r['error']}")
     if args.verify:
-        flagged = [r for r in rows if r.get("verify_note")]
-        print(f"Monte Carlo check: {len(flagged)} of {sum(1 for r in rows if r['net_bit_rate_bps'])} "
-              "chosen configurations disagree with the prediction" + (":" if flagged else "."))
-        for r in flagged:
-            print(f"  {r['range_m'] / 1000:g} km: {r['verify_note']}")
+        for line in verify_summary(rows):
+            print(line)
     print(f"caution: {CAUTION}")
     for note in (args.csv and f"wrote {args.csv}", args.plot and f"wrote {args.plot}"):
         if note:
@@ -126,8 +140,31 @@ def table_columns(verify: bool) -> list:
             ("margin_db", "margin\ndB", ".1f"), ("spread_ms", "90% spread\nms", ".3g"),
             ("tl_db", "TL\ndB re 1 m", ".1f")]
     if verify:
-        cols += [("ber_measured", "measured\nBER", ".1e"), ("flag", "\ncheck", "")]
+        cols += [("ber_measured", "measured\nBER", ".1e"), ("verify_verdict", "\ncheck", "")]
     return cols
+
+
+#: The mark a table puts after a rate its Monte Carlo check did not confirm, by verdict.
+RATE_MARKS = {"fails": " !", "optimistic": " ?", "undecided": " ?", "error": " ?"}
+
+
+def verify_summary(rows) -> list:
+    """Lines under a verified table: the count of each verdict, then every unconfirmed row."""
+    checked = [r for r in rows if r.get("verify_verdict")]
+    counts = {}
+    for r in checked:
+        counts[r["verify_verdict"]] = counts.get(r["verify_verdict"], 0) + 1
+    told = ", ".join(f"{word} {n}" for word, n in counts.items()) or "nothing to check"
+    lines = [f"Monte Carlo check of {len(checked)} chosen configurations: {told}."]
+    for r in checked:
+        if r["verify_note"]:
+            lines.append(f"  {r['range_m'] / 1000:g} km{RATE_MARKS.get(r['verify_verdict'], '')}: "
+                         f"{r['verify_verdict']}: {r['verify_note']}")
+    if any(r["verify_verdict"] == "fails" for r in checked):
+        lines.append("  ! the simulated link misses the target BER at this rate: do not plan on it")
+    if any(RATE_MARKS.get(r["verify_verdict"]) == " ?" for r in checked):
+        lines.append("  ? the rate is not confirmed by the simulation (see the note)")
+    return lines
 
 
 def display_row(row: dict) -> dict:
@@ -137,11 +174,53 @@ def display_row(row: dict) -> dict:
     rate = row["net_bit_rate_bps"]
     out["rate_kbps"] = None if rate is None else rate / 1000.0
     out["spread_ms"] = None if row["spread_90_s"] is None else row["spread_90_s"] * 1000.0
-    if "verify_note" in row and rate:
-        out["flag"] = "disagrees" if row["verify_note"] else "agrees"
+    mark = RATE_MARKS.get(row.get("verify_verdict") or "", "")
+    if mark and rate:
+        # a rate the Monte Carlo check did not confirm never prints without its mark
+        out["rate_kbps"] = format(rate / 1000.0, ".3g") + mark
     if rate == 0:
         out["modulation"] = "none workable"
     for key in ("snr_band_db", "tl_db"):
         if out.get(key) is not None and not math.isfinite(out[key]):
             out[key] = None
     return out
+
+
+def run_availability(args, site, ranges, receivers) -> int:
+    """``plan --availability P``: the ensemble table (see :mod:`aculink.planning.availability`)."""
+    from aculink.errors import AculinkError
+    from aculink.io.tables import format_table, write_csv
+    from aculink.planning import availability as av
+    from aculink.planning.dataset import CAUTION
+
+    if args.verify:
+        raise AculinkError("--verify and --availability: choose one (verify the nominal plan without "
+                           "--availability)")
+    ds = av.plan_availability(site, ranges, depth_m=args.depth_m, probability=args.availability,
+                              members=args.members, seed=args.seed, receivers=receivers,
+                              target_ber=args.target_ber, margin_db=args.margin_db)
+    rows = av.availability_rows(ds)
+    keys = av.AVAILABILITY_KEYS + tuple(k for k in rows[0] if k.startswith("rate_at_"))
+    if args.csv:
+        write_csv(args.csv, keys, rows, overwrite=args.overwrite)
+    if args.plot:
+        from aculink.plots.availability import plot_availability
+
+        plot_availability(ds, site, args.plot)
+    if args.json:
+        print_json({"site": site.name, "receiver_depth_m": ds.attrs["receiver_depth_m"],
+                    "source_depth_m": ds.attrs["source_depth_m"], "target_ber": ds.attrs["target_ber"],
+                    "margin_db": ds.attrs["margin_db"], "availability": ds.attrs["availability"],
+                    "ensemble": ds.attrs["ensemble"], "members": int(ds.attrs["members"]),
+                    "converged": bool(ds.attrs["converged"]), "seed": int(ds.attrs["seed"]),
+                    "variability": None if site.variability is None else site.variability.to_dict(),
+                    "caution": CAUTION, "rows": rows})
+        return 0
+    print(av.availability_heading(ds))
+    print(format_table(av.availability_columns(ds), [av.availability_display(r) for r in rows]))
+    print(av.availability_reading(ds, rows))
+    print(f"caution: {CAUTION}")
+    for note in (args.csv and f"wrote {args.csv}", args.plot and f"wrote {args.plot}"):
+        if note:
+            print(note, file=sys.stderr)
+    return 0

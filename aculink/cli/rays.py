@@ -11,7 +11,9 @@ def register(subparsers) -> None:
         help="trace a fan of rays from the source and draw it over the sound-speed profile and seabed",
         description="Trace a fan of rays from the source through the site's sound-speed profile, "
         "reflecting at the surface and the (sloping) seabed, and summarise where they go. With --plot, "
-        "draw the fan beside the profile, rays coloured by how many boundaries they met.",
+        "draw the fan beside the profile, each ray shaded by its level relative to the strongest ray at "
+        "the same range (or by launch angle, or by reflections met so far), optionally with the eigenrays "
+        "to the receiver on top.",
     )
     add_site_argument(parser)
     parser.add_argument("--angles-deg", default="-30:30:121", metavar="START:STOP:COUNT",
@@ -20,8 +22,14 @@ def register(subparsers) -> None:
                         help="trace out to this range, m (default the receiver range)")
     parser.add_argument("--source-depth-m", type=float, default=None, metavar="Z",
                         help="source depth, m (default the site's source)")
-    parser.add_argument("--colour-by", choices=("bounces", "angle"), default="bounces",
-                        help="colour rays by boundary history (default) or by launch angle")
+    parser.add_argument("--shade", choices=("level", "angle", "boundaries"), default="level",
+                        help="with --plot: shade rays by level below the strongest ray at the same range "
+                        "(default), by launch angle, or by surface and seabed reflections met so far")
+    parser.add_argument("--dynamic-range-db", type=float, default=40.0, metavar="DB",
+                        help="with --shade level: draw rays more than this below the strongest faint "
+                        "(default 40 dB)")
+    parser.add_argument("--eigenrays", action="store_true",
+                        help="with --plot: draw the eigenrays to the site's receiver on top")
     parser.add_argument("--plot", metavar="FILE.png", help="draw the fan to this PNG file")
     parser.add_argument("--overwrite", action="store_true", help="replace an existing --plot file")
     parser.add_argument("--json", action="store_true", help="print the per-ray summary as one JSON object")
@@ -37,14 +45,19 @@ def run(args) -> int:
 
     from aculink.propagation.rays import TERMINATION_MEANINGS, trace_rays
 
+    from aculink.errors import check_range
+
     check_plot_path(args)
     angles = parse_count_span(args.angles_deg, "--angles-deg")
-    site = load_site_arg(args.site)
+    check_range("--dynamic-range-db", args.dynamic_range_db, 0.0, 200.0, low_open=True, unit="dB")
+    site = load_site_arg(args.site, args)
     fan = trace_rays(site, source_depth_m=args.source_depth_m, angles_deg=angles, max_range_m=args.max_range_m)
     if args.plot is not None:
         from aculink.plots.rays import plot_rays
 
-        plot_rays(site, fan, args.plot, colour_by=args.colour_by, overwrite=args.overwrite)
+        eigen = eigenray_fan(site, fan, args.dynamic_range_db) if args.eigenrays else None
+        plot_rays(site, fan, args.plot, shade=args.shade, dynamic_range_db=args.dynamic_range_db,
+                  eigenrays=eigen, overwrite=args.overwrite)
     meanings = TERMINATION_MEANINGS.split()
     term = fan.termination.values
     counts = {meanings[k]: int(np.sum(term == k)) for k in range(len(meanings))}
@@ -71,3 +84,21 @@ def run(args) -> int:
 
     print(CAUTION_LINE)
     return 0
+
+
+def eigenray_fan(site, fan, dynamic_range_db=40.0):
+    """The eigenrays from the fan's source to the site's receiver, traced as paths (None if out of reach)."""
+    import numpy as np
+
+    from aculink.propagation import find_arrivals, trace_rays
+
+    zs = float(fan.attrs["source_depth_m"])
+    rx = site.receiver
+    if rx.range_m > float(fan.attrs["max_range_m"]):
+        return None
+    arr = find_arrivals(site, rx.range_m, rx.depth_m, source_depth_m=zs, dynamic_range_db=dynamic_range_db)
+    angles = arr.launch_angle_deg.values.ravel()
+    angles = angles[np.isfinite(angles)]
+    if angles.size == 0:
+        return None
+    return trace_rays(site, source_depth_m=zs, angles_deg=angles, max_range_m=rx.range_m)

@@ -26,7 +26,7 @@ def run(args) -> int:
     from aculink.site.summary import format_summary, summarize_site
 
     check_plot_path(args)
-    site = load_site_arg(args.site)
+    site = load_site_arg(args.site, args)
     summary = summarize_site(site)
     if args.plot is not None:
         from aculink.plots.site import plot_site

@@ -22,7 +22,8 @@ def register(subparsers) -> None:
     p.add_argument("-o", "--out", required=True, metavar="OUT.nc", help="NetCDF file to write")
     where = p.add_mutually_exclusive_group()
     where.add_argument("--workers", type=int, default=None, metavar="N",
-                       help="local worker processes (default: one per core; 0 or 1: serial)")
+                       help="local worker processes (0 or 1: serial; default: one per core when the "
+                       "sweep is large enough to repay starting them, about 300 points on 2 cores, else serial)")
     where.add_argument("--scheduler", default=None, metavar="ADDRESS",
                        help="run on an existing Dask cluster, e.g. tcp://10.0.0.5:8786")
     p.add_argument("--receiver", default="all", metavar="NAME",
@@ -31,8 +32,12 @@ def register(subparsers) -> None:
     p.add_argument("--margin-db", type=float, default=None, help="SNR margin to keep, dB (default: the site's)")
     p.add_argument("--chunk-ranges", type=int, default=None, metavar="N",
                    help="ranges per chunk (default: about 40 receivers per chunk)")
-    p.add_argument("--resume", action="store_true", help="continue an interrupted sweep from OUT.parts/")
-    p.add_argument("--overwrite", action="store_true", help="replace an existing OUT (and --plot file)")
+    p.add_argument("--resume", action="store_true",
+                   help="continue the unfinished sweep in OUT.parts/ (same settings; replaces OUT only if "
+                   "that sweep was started with --overwrite)")
+    p.add_argument("--overwrite", action="store_true",
+                   help="start over: discard OUT.parts/ and replace an existing OUT (and --plot file); "
+                   "excludes --resume")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
     p.add_argument("--plot", default=None, metavar="FILE.png", help="draw a range x depth map of the best rate")
     p.add_argument("--json", action="store_true", help="print a one-object JSON summary")
@@ -44,15 +49,19 @@ def run(args) -> int:
 
     from aculink.errors import AculinkError
     from aculink.planning.dataset import CAUTION
-    from aculink.planning.sweep import report_failures, run_sweep
+    from aculink.planning.checkpoint import RULE
+    from aculink.planning.sweep import may_replace_outputs, report_failures, run_sweep
 
-    if args.plot and Path(args.plot).exists() and not args.overwrite:
+    if args.resume and args.overwrite:
+        raise AculinkError(f"--resume and --overwrite together: choose one ({RULE})")
+    replace = may_replace_outputs(args.out, resume=args.resume, overwrite=args.overwrite)
+    if args.plot and Path(args.plot).exists() and not replace:
         raise AculinkError(f"--plot {args.plot} exists: pass --overwrite to replace it")
     ranges = parse_span(args.ranges_m, "--ranges-m", positive=True)
     depths = parse_span(args.depths_m, "--depths-m", positive=True)
     sources = None if args.source_depths_m is None else parse_span(args.source_depths_m, "--source-depths-m", positive=True)
     winds = None if args.wind_mps is None else parse_span(args.wind_mps, "--wind-mps")
-    site = load_site_arg(args.site)
+    site = load_site_arg(args.site, args)
     receivers = args.receiver if args.receiver == "all" else [args.receiver]
     try:
         ds = run_sweep(site, ranges, depths, args.out, source_depths_m=sources, winds_mps=winds,
@@ -60,8 +69,9 @@ def run(args) -> int:
                        workers=args.workers, scheduler=args.scheduler, resume=args.resume,
                        overwrite=args.overwrite, quiet=args.quiet, chunk_ranges=args.chunk_ranges)
     except KeyboardInterrupt:
-        print(f"aculink: interrupted; finished chunks are kept in {args.out}.parts/, rerun with "
-              "--resume to continue", file=sys.stderr)
+        how = "with --resume in place of --overwrite" if args.overwrite else "with --resume"
+        print(f"aculink: interrupted; finished chunks are kept in {args.out}.parts/; to continue, rerun "
+              f"the same command {how}", file=sys.stderr)
         return 130
     note = report_failures(ds)
     if args.plot:

@@ -51,10 +51,19 @@ def atomic_path(path, *, overwrite: bool = True):
     os.close(fd)
     try:
         yield Path(tmp)
+        # mkstemp makes the file private (0600); a result is an ordinary file of the user's
+        os.chmod(tmp, 0o666 & ~current_umask())
         os.replace(tmp, path)
     finally:
         if os.path.exists(tmp):
             os.unlink(tmp)
+
+
+def current_umask() -> int:
+    """The process's file-creation mask (read by setting it and putting it straight back)."""
+    mask = os.umask(0o022)
+    os.umask(mask)
+    return mask
 
 
 def write_text_atomic(path, text: str, *, overwrite: bool = True) -> Path:

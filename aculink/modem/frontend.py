@@ -2,9 +2,23 @@
 
 Transmit: symbols at ``sps`` samples per symbol through a unit-energy root-raised-cosine
 filter. Receive: the matched filter (the same RRC), frame detection by correlating with the
-known preamble, the Doppler time scale from the distance between the preamble and tail-marker
-peaks, resampling to undo it, decimation to T/2 at the phase of the strongest arrival, a
-least-squares channel estimate from the training, and gain/phase normalisation.
+known preamble, the Doppler time scale, resampling to undo it, decimation to T/2 at the phase
+of the strongest arrival, a least-squares channel estimate from the training, a detection test
+on it (with resynchronisation on the next candidate peaks when it fails), gain/phase
+normalisation and the removal of a residual carrier-frequency offset measured on the training.
+
+Doppler without false lock. On a channel whose strongest arrivals are close in level and
+fluctuate with the surface, the strongest peak of the preamble correlation and that of the
+tail marker can belong to *different* arrivals; their distance then measures the gap between
+the arrivals, not the time scale, and the frame is resampled by a wrong factor. The time scale
+is therefore measured from the whole correlation envelope: the envelope ``|c|`` over the
+arrival cluster after the preamble is cross-correlated (normalised) with the tail marker's
+envelope, so every arrival is matched with itself. The search is bounded by ``max_doppler``,
+the largest time scale the site can produce (platform speeds plus the surface, passed by the
+simulator from the channel); an estimate is used only when it is *significant*: the envelopes
+must be alike (correlation coefficient at least ``ENVELOPE_MIN_CORRELATION``), the best lag
+must lie inside the bound (not on its edge) and the scale must exceed ``DOPPLER_SIGNIFICANCE``
+standard deviations of its timing floor. No estimate, no resampling.
 
 References
 ----------
@@ -17,6 +31,7 @@ shifts", IEEE J. Oceanic Eng. 33(2), 198-209, 2008 (the wideband Doppler model: 
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -25,8 +40,25 @@ from scipy.interpolate import make_interp_spline
 
 from aculink.modem.pulses import DEFAULT_SPAN_SYMBOLS, rrc_taps
 
-#: Largest time-scale factor |a| the front end searches for (|v| <= 15 m/s at 1500 m/s).
+#: Largest time-scale factor |a| the front end ever searches for (|v| <= 15 m/s at 1500 m/s).
 MAX_DOPPLER_FACTOR = 0.01
+#: Bound used when the caller does not know the site's motion: 5 m/s at 1500 m/s (a fast
+#: vehicle; common practice, no source).
+DEFAULT_MAX_DOPPLER = 5.0 / 1500.0
+#: Head and tail envelopes less alike than this are not the same channel: no estimate
+#: (common practice, no source).
+ENVELOPE_MIN_CORRELATION = 0.3
+#: A frame is taken as detected when the training explains at least this much more power than
+#: it leaves (explained over residual, -3 dB) and at least ``DETECT_OVER_CHANCE`` times what a
+#: least-squares fit of the same size explains in noise alone, L / (N - L) (common practice,
+#: no source).
+DETECT_MIN_SNR = 0.5
+DETECT_OVER_CHANCE = 4.0
+#: Envelope samples per symbol in the Doppler measurement (the correlation output is
+#: interpolated up to this when the simulation runs at fewer samples per symbol).
+_ENVELOPE_SAMPLES = 8
+#: Candidate preamble peaks tried when the strongest one fails the detection test.
+RESYNC_CANDIDATES = 3
 #: Upsampling before the cubic-spline interpolation used for time scaling: the spline's error
 #: on a signal at 1/16 of its sample rate is below -80 dB (computed for the RRC spectrum).
 _INTERP_UPSAMPLE = 4
@@ -74,7 +106,7 @@ def time_scale(x, factor: float, sample_rate_hz: float, carrier_hz: float, *, in
 
 def rms_bandwidth_symbols(rolloff: float) -> float:
     """RMS bandwidth of the RRC power spectrum in units of Rs: ``sqrt(int f^2 |G|^2 / int |G|^2)``."""
-    from aculink.modem.pulses import raised_cosine_spectrum
+    from aculink.channel.pulses import raised_cosine_spectrum
 
     f = np.linspace(-0.5 * (1 + rolloff), 0.5 * (1 + rolloff), 4001)
     g2 = raised_cosine_spectrum(f, rolloff)
@@ -128,16 +160,35 @@ def _peak(c, lo: int, hi: int):
 class Sync:
     """Front-end result for one frame."""
 
-    stream: np.ndarray       # matched-filter output at T/2, gain- and phase-normalised
+    stream: np.ndarray       # matched-filter output at T/2, gain-, phase- and frequency-normalised
     start: int               # T/2 index of symbol 0's strongest arrival
     q: np.ndarray            # LS channel estimate at T/2 (normalised: q[q_peak] = 1)
     q_peak: int              # index of the strongest sample in q
     noise_var: float         # noise variance per T/2 sample after normalisation
-    doppler: float           # estimated time-scale factor a
-    detected: bool
+    doppler: float           # time-scale factor a applied (0 when no significant estimate)
+    detected: bool           # the training was found where the preamble peak said
+    doppler_note: str = ""   # why no time scale was applied ("" when one was, or none searched)
+    resyncs: int = 0         # candidate peaks tried after the strongest failed the detection test
+    detect_snr: float = 0.0  # training power explained over residual, at the chosen peak
+    freq_offset: float = 0.0  # residual carrier offset removed, rad per symbol
 
 
-def estimate_channel(stream, start: int, training, n_pre: int, n_post: int):
+def fit_quality(power_obs: float, power_resid: float, n_rows: int, n_taps: int) -> tuple[float, bool]:
+    """Detection statistic of a least-squares training fit and the detection decision.
+
+    ``snr = (|obs|^2 - |resid|^2) / |resid|^2``; in noise alone a fit of L coefficients to N
+    rows explains about ``L / (N - L)`` of the residual (chi-square degrees of freedom: Kay,
+    Fundamentals of Statistical Signal Processing: Detection Theory, 1998, ch. 7, from memory).
+    """
+    resid = max(power_resid, 1e-300)
+    snr = max(power_obs - power_resid, 0.0) / resid
+    if n_rows < 2 * n_taps:  # a fit that is not well overdetermined explains noise as well
+        return float(snr), False
+    chance = n_taps / (n_rows - n_taps)
+    return float(snr), bool(snr >= max(DETECT_MIN_SNR, DETECT_OVER_CHANCE * chance))
+
+
+def estimate_channel(stream, start: int, training, n_pre: int, n_post: int, *, full=False):
     """Least-squares T/2 channel estimate from the training symbols.
 
     Model ``stream[base + 2 j + u] += q[u] x_j`` with ``base = start - n_pre`` and
@@ -145,7 +196,8 @@ def estimate_channel(stream, start: int, training, n_pre: int, n_post: int):
     (for a single tap, only the symbol instants). An L-tap estimate from N training symbols
     costs about a factor 1 + L/N in output SNR (data-aided least squares; Kay, Fundamentals of
     Statistical Signal Processing: Estimation Theory, 1993, ch. 4, from memory).
-    Returns ``(q, residual noise variance per sample)``.
+    Returns ``(q, residual noise variance per sample)``, and with ``full=True`` also
+    ``(detection snr, detected)`` from :func:`fit_quality`.
     """
     x = np.asarray(training, dtype=complex)
     n_tr = x.size
@@ -166,11 +218,112 @@ def estimate_channel(stream, start: int, training, n_pre: int, n_post: int):
     q, *_ = np.linalg.lstsq(a, obs, rcond=None)
     resid = obs - a @ q
     dof = max(rows.size - length, 1)
-    return q, float(np.sum(np.abs(resid) ** 2) / dof)
+    r2 = float(np.sum(np.abs(resid) ** 2))
+    if not full:
+        return q, r2 / dof
+    return q, r2 / dof, *fit_quality(float(np.sum(np.abs(obs) ** 2)), r2, rows.size, length)
+
+
+def envelope_lag(env_head, env_tail, max_shift: int):
+    """Lag of ``env_tail`` against ``env_head`` by cross-correlation of the envelopes.
+
+    ``env_tail`` is ``2 max_shift`` samples longer than ``env_head``; lag 0 is its centre. The
+    lag maximises the plain cross-correlation (so the match must carry the energy: a weak
+    stretch of the same shape does not win), refined by a parabola through its neighbours.
+    Returns ``(lag, rho, inside)``: the lag in samples, the correlation coefficient there
+    (normalised by both segments' energies, for the significance test), and whether the best
+    lag lies strictly inside ``[-max_shift, max_shift]`` (on the edge the true one may be beyond).
+    """
+    h = np.asarray(env_head, dtype=float)
+    t = np.asarray(env_tail, dtype=float)
+    num = scipy.signal.correlate(t, h, mode="valid")
+    k = int(np.argmax(num))
+    frac = 0.0
+    if 0 < k < num.size - 1:
+        y0, y1, y2 = num[k - 1], num[k], num[k + 1]
+        den = y0 - 2 * y1 + y2
+        if den < 0:
+            frac = float(np.clip(0.5 * (y0 - y2) / den, -0.5, 0.5))
+    seg = t[k:k + h.size]
+    rho = num[k] / max(float(np.linalg.norm(h) * np.linalg.norm(seg)), 1e-300)
+    return k - max_shift + frac, float(rho), bool(0 < k < num.size - 1)
+
+
+def _preamble_snr(r, k0: float, sync_head, sps: int) -> float:
+    """SNR seen by the preamble at peak ``k0`` (residual ISI counts as noise: a conservative floor)."""
+    n0c = int(round(k0))
+    seg = r[n0c:n0c + sps * len(sync_head):sps]
+    if seg.size != len(sync_head):
+        return 1.0
+    hs = np.asarray(sync_head)
+    gain = np.vdot(hs, seg) / np.vdot(hs, hs)
+    return float(abs(gain) ** 2 / max(np.mean(np.abs(seg - gain * hs) ** 2), 1e-300))
+
+
+def _candidates(c, hi: int, guard: int, n: int) -> list[int]:
+    """The ``n`` strongest peaks of ``|c[:hi]|`` at least ``guard`` samples apart."""
+    env = np.abs(c[:max(int(hi), 1)]).copy()
+    out = []
+    for _ in range(n):
+        k = int(np.argmax(env))
+        if env[k] <= 0:
+            break
+        out.append(k)
+        env[max(k - guard, 0):k + guard + 1] = 0.0
+    return out
+
+
+def measure_doppler(r, c_head, k0: float, sync_tail, sps: int, nominal: int, window: tuple[int, int],
+                    max_doppler: float) -> tuple[float | None, str]:
+    """Time scale of the frame from the head and tail correlation envelopes (module docstring).
+
+    ``window = (pre, post)``: the envelope samples kept before and after the head peak ``k0``
+    (the arrival cluster). Returns ``(a, "")`` or ``(None, reason)``.
+    """
+    pre, post = window
+    max_shift = int(math.ceil(nominal * max_doppler / max(1.0 - max_doppler, 1e-9))) + 1
+    c_tail = correlate_sequence(r, sync_tail, sps)
+    h0 = int(round(k0)) - pre
+    lo = h0 - max_shift
+    if h0 < 0:
+        pre += h0
+        h0, lo = 0, -max_shift
+    head = np.abs(c_head[h0:h0 + pre + post + 1])
+    lo_t, hi_t = lo + nominal, lo + nominal + head.size + 2 * max_shift
+    if lo_t < 0 or hi_t > c_tail.size or head.size < 3:
+        return None, "tail marker outside the received block"
+    up = max(1, _ENVELOPE_SAMPLES // sps)  # the envelope's fine structure needs more than T/2
+    if up > 1:
+        head = np.abs(scipy.signal.resample_poly(c_head[h0:h0 + pre + post + 1], up, 1))
+        tail = np.abs(scipy.signal.resample_poly(c_tail[lo_t:hi_t], up, 1))
+        head, tail = head[:(pre + post) * up + 1], tail[:(pre + post + 2 * max_shift) * up + 1]
+    else:
+        tail = np.abs(c_tail[lo_t:hi_t])
+    lag, rho, inside = envelope_lag(head, tail, max_shift * up)
+    lag /= up
+    if rho < ENVELOPE_MIN_CORRELATION:
+        return None, f"head and tail envelopes differ (correlation {rho:.2f})"
+    if not inside:
+        return None, "time scale at the bound of what the site can produce"
+    return nominal / (nominal + lag) - 1.0, ""
+
+
+def derotation(q_first, q_second, gap_symbols: float, snr: float, n_symbols: int) -> float:
+    """Residual carrier offset (rad per symbol) from two channel estimates ``gap_symbols`` apart,
+    or 0 when it is not significant: the angle of ``<q1, q2>`` has a standard deviation of about
+    ``1 / sqrt(n snr)`` per estimate (Kay 1993, ch. 3, phase estimation, from memory), and it is
+    used only beyond ``DOPPLER_SIGNIFICANCE`` of those (both estimates' noise)."""
+    c = np.vdot(q_first, q_second)
+    if not abs(c) > 0:
+        return 0.0
+    dphi = float(np.angle(c))
+    sigma = math.sqrt(2.0 / max(n_symbols * snr, 1e-3))
+    return dphi / gap_symbols if abs(dphi) > DOPPLER_SIGNIFICANCE * sigma else 0.0
 
 
 def synchronise(y, *, rolloff, sps, sync_head, sync_tail, training, n_frame_symbols,
-                n_pre, n_post, sample_rate_hz, carrier_hz, track_doppler=True) -> Sync:
+                n_pre, n_post, sample_rate_hz, carrier_hz, track_doppler=True,
+                max_doppler=DEFAULT_MAX_DOPPLER, spread_samples=None) -> Sync:
     """Matched filter, detection, Doppler estimate and compensation, T/2 decimation, estimate.
 
     Parameters
@@ -185,60 +338,103 @@ def synchronise(y, *, rolloff, sps, sync_head, sync_tail, training, n_frame_symb
         Symbols from the first preamble symbol to the first tail-marker symbol.
     n_pre, n_post : int
         Channel estimate extent before and after the strongest arrival, T/2 samples.
+    max_doppler : float
+        Largest time scale |a| the site can produce (platform speeds and the surface over the
+        sound speed); the search is bounded by it (capped at ``MAX_DOPPLER_FACTOR``).
+    spread_samples : int, optional
+        Multipath spread at ``sps`` samples per symbol: the envelope window either side of
+        the preamble peak (default from ``n_pre`` and ``n_post``).
     """
     half = sps // 2
-    doppler = 0.0
+    a_max = float(np.clip(max_doppler, 0.0, MAX_DOPPLER_FACTOR))
+    spread = int(spread_samples) if spread_samples is not None else (n_pre + n_post) * half
+    window = (spread + 2 * sps, spread + 2 * sps)
+    nominal = n_frame_symbols * sps
     r = matched_filter(y, rolloff, sps)
     c = correlate_sequence(r, sync_head, sps)
-    hi_head = c.size - n_frame_symbols * sps * (1 - MAX_DOPPLER_FACTOR)
-    k0, _ = _peak(c, 0, hi_head)
-    if k0 is None:
-        k0, _ = _peak(c, 0, c.size)
-    if track_doppler and k0 is not None:
-        # SNR seen by the preamble (residual ISI counts as noise: a conservative floor)
-        n0c = int(round(k0))
-        seg = r[n0c:n0c + sps * len(sync_head):sps]
-        if seg.size == len(sync_head):
-            hs = np.asarray(sync_head)
-            gain = np.vdot(hs, seg) / np.vdot(hs, hs)
-            snr_pre = abs(gain) ** 2 / max(np.mean(np.abs(seg - gain * hs) ** 2), 1e-300)
-        else:
-            snr_pre = 1.0
-        floor = DOPPLER_SIGNIFICANCE * doppler_floor(rolloff, len(sync_head), snr_pre, n_frame_symbols)
-        # two passes: after the first compensation both peaks sit at the same fractional
-        # sample offset, so the bias of the parabolic peak fit cancels in the second estimate
+    hi_head = c.size - nominal * (1 - a_max)
+    k_first, _ = _peak(c, 0, hi_head)
+    if k_first is None:
+        k_first, _ = _peak(c, 0, c.size)
+    k0 = k_first if k_first is not None else 0.0
+    doppler = 0.0
+    note = ""
+    if track_doppler and k_first is not None and a_max > 0:
+        floor = DOPPLER_SIGNIFICANCE * doppler_floor(rolloff, len(sync_head), _preamble_snr(r, k0, sync_head, sps),
+                                                     n_frame_symbols)
+        # two passes: after the first compensation head and tail sit at the same fractional
+        # sample offset, so the bias of the parabolic refinement cancels in the second estimate
         y0 = y
         for _ in range(2):
-            ct = correlate_sequence(r, sync_tail, sps)
-            nominal = n_frame_symbols * sps
-            lo = k0 + nominal * (1 - MAX_DOPPLER_FACTOR) - 2 * sps
-            hi = k0 + nominal * (1 + MAX_DOPPLER_FACTOR) + 2 * sps
-            k1, _ = _peak(ct, lo, hi + 1)
-            if k1 is None or k1 <= k0:
+            a_step, why = measure_doppler(r, c, k0, sync_tail, sps, nominal, window, a_max)
+            if a_step is None:
+                if doppler == 0.0:
+                    note = why
                 break
-            a_step = nominal / (k1 - k0) - 1.0
             a = (1.0 + doppler) * (1.0 + a_step) - 1.0
-            if abs(a) > MAX_DOPPLER_FACTOR or abs(a_step) < 1e-7 or (doppler == 0.0 and abs(a) < floor):
+            if abs(a) > a_max:
+                note = "" if doppler else "time scale beyond what the site can produce"
+                break
+            if doppler == 0.0 and abs(a) < floor:
+                note = "time scale below its noise floor"
+                break
+            if abs(a_step) < 1e-7:
                 break
             doppler = a
             y = time_scale(y0, a, sample_rate_hz, carrier_hz, inverse=True)
             r = matched_filter(y, rolloff, sps)
             c = correlate_sequence(r, sync_head, sps)
             k0, _ = _peak(c, 0, hi_head)
-    n0 = int(round(k0)) if k0 is not None else 0
-    # refine the timing with the whole training (more correlation gain than the preamble
-    # alone): the 64-symbol peak can pick a neighbouring sample (T/sps off) at low SNR
+            k0 = 0.0 if k0 is None else k0
+    # detection, and resynchronisation on the next candidate peaks when the training is not
+    # where the strongest peak says
+    best = None
+    tried = 0
+    for cand in [int(round(k0))] + [k for k in _candidates(c, hi_head, 2 * window[0], RESYNC_CANDIDATES + 1)
+                                    if abs(k - k0) > window[0]][:RESYNC_CANDIDATES]:
+        res = _acquire(r, cand, training, sps, n_pre, n_post)
+        if best is None or res[5] > best[5]:
+            best = res
+        if res[6]:
+            best = res
+            break
+        tried += 1
+    stream, start, q, nv, g, snr_fit, detected = best
+    freq = 0.0
+    if detected:
+        stream /= g
+        q = q / g
+        nv = nv / abs(g) ** 2
+        freq = _frequency_offset(stream, start, training, n_pre, n_post, snr_fit)
+        if freq:
+            stream *= np.exp(-1j * freq * (np.arange(stream.size) - start) / 2.0)
+    return Sync(stream, start, q, n_pre, nv, doppler, detected, note, tried if detected else tried - 1,
+                snr_fit, freq)
+
+
+def _acquire(r, n0: int, training, sps: int, n_pre: int, n_post: int):
+    """Timing refined on the whole training around peak ``n0``, T/2 decimation and the LS fit."""
+    half = sps // 2
+    # more correlation gain than the preamble alone: the 64-symbol peak can pick a
+    # neighbouring sample (T/sps off) at low SNR
     ref = correlate_sequence(r[max(n0 - sps, 0):], training, sps)
     if ref.size:
         n0 = max(n0 - sps, 0) + int(np.argmax(np.abs(ref[:2 * sps + 1])))
     phase = n0 % half
     stream = r[phase::half].copy()
     start = (n0 - phase) // half
-    q, nv = estimate_channel(stream, start, training, n_pre, n_post)
+    q, nv, snr_fit, detected = estimate_channel(stream, start, training, n_pre, n_post, full=True)
     g = q[n_pre]
-    detected = bool(abs(g) > 0)
-    if detected:
-        stream /= g
-        q = q / g
-        nv = nv / abs(g) ** 2
-    return Sync(stream, start, q, n_pre, nv, doppler, detected)
+    return stream, start, q, nv, g, snr_fit, detected and bool(abs(g) > 0)
+
+
+def _frequency_offset(stream, start: int, training, n_pre: int, n_post: int, snr: float) -> float:
+    """Carrier offset left after the time scale (rad per symbol), from the channel estimated on
+    each half of the training (:func:`derotation`); the PLL then starts near lock."""
+    x = np.asarray(training)
+    h = x.size // 2
+    if h < 2 * (n_pre + n_post + 1):  # each half must determine its estimate well
+        return 0.0
+    q1, _ = estimate_channel(stream, start, x[:h], n_pre, n_post)
+    q2, _ = estimate_channel(stream[2 * h:], start, x[h:2 * h], n_pre, n_post)
+    return derotation(q1, q2, float(h), snr, h)

@@ -18,18 +18,19 @@ import numpy as np
 
 from aculink.errors import AculinkError, check_range
 from aculink.modem.analytic import folded_snr_from_taps, water_filling
-from aculink.modem.pulses import raised_cosine_spectrum
-
-#: Raised-cosine tail kept each side of a tap-list response, symbols.
-_RC_TAIL_SYMBOLS = 10
+from aculink.modem.pulses import filter_pulse, raised_cosine, raised_cosine_spectrum
 
 
-def _rc_pulse(t_over_t, beta):
-    x = np.asarray(t_over_t, dtype=float)
-    den = 1.0 - (2.0 * beta * x) ** 2
-    sing = np.abs(den) < 1e-10
-    out = np.sinc(x) * np.cos(np.pi * beta * x) / np.where(sing, 1.0, den)
-    return np.where(sing, np.pi / 4.0 * np.sinc(1.0 / (2.0 * beta)), out)
+class _Memo(dict):
+    """A per-object cache that pickles empty (a channel sent to a worker does not carry it)."""
+
+    def __reduce__(self):
+        return (_Memo, ())
+
+    def get_or(self, key, func):
+        if key not in self:
+            self[key] = func()
+        return self[key]
 
 
 def is_channel(obj) -> bool:
@@ -55,25 +56,49 @@ class TapMedium:
             raise AculinkError("carrier_hz = None: a Doppler time scale on a tap list needs the carrier frequency")
         self.carrier_hz = None if carrier_hz is None else check_range("carrier_hz", carrier_hz, 0.0, None, low_open=True, unit="Hz")
         self.snr_in_db = self.snr_db
+        self._memo = _Memo()
+
+    def memo(self, key, func):
+        """Cache of quantities that do not depend on the receiver (for this medium's life)."""
+        return self._memo.get_or(key, func)
 
     def check_rate(self, rs, beta):
         return None
 
     def response(self, rs, beta, sps):
-        """Matched-filtered response at T/sps: ``q[m] = sum_k h_k rc(m/sps - k)``."""
-        n_tail = _RC_TAIL_SYMBOLS * sps
-        m = np.arange(-n_tail, (self.taps.size - 1) * sps + n_tail + 1)
-        k = np.arange(self.taps.size)
-        return _rc_pulse(m[:, None] / sps - k[None, :], beta) @ self.taps
+        """Matched-filtered response at T/sps: ``q[m] = sum_k h_k c(m/sps - k)``.
+
+        ``c`` is the overall pulse of the simulator's truncated RRC filters
+        (:func:`aculink.modem.pulses.filter_pulse`); ``q[0]`` lies ``c``'s half-length before tap 0.
+        """
+        c, _ = filter_pulse(beta, sps)
+        h_up = np.zeros((self.taps.size - 1) * sps + 1, dtype=complex)
+        h_up[::sps] = self.taps
+        return np.convolve(h_up, c)
+
+    def pulse_acf(self, beta, n_lags, sps=2):
+        """Autocorrelation, at lags ``k T/sps``, of white noise through the receive filter (unit
+        at lag 0): the same pulse as :meth:`response`, so the two describe one filter."""
+        c, centre = filter_pulse(beta, sps)
+        out = np.zeros(int(n_lags))
+        m = min(out.size, c.size - centre)
+        out[:m] = c[centre:centre + m]
+        return out
 
     def noise_acf(self, rs, beta, n_lags, sps=2):
-        return self.noise_var * _rc_pulse(np.arange(n_lags) / sps, beta)
+        return self.noise_var * self.pulse_acf(beta, n_lags, sps)
 
     def es_over_ref(self, rs):
         return 1.0
 
     def folded_snr(self, rs, beta, n_grid):
-        return folded_snr_from_taps(self.taps, 1.0 / self.noise_var, n_grid)
+        """``snr |H(theta)|^2 C(theta)``, with ``C(theta) = sum_n c(nT) exp(-j n theta)`` the folded
+        spectrum of the filters' overall pulse (1 for an ideal Nyquist pulse; Poisson summation)."""
+        c, centre = filter_pulse(beta, 1)
+        n = int(n_grid)
+        theta = 2 * np.pi * np.arange(n) / n  # the grid of folded_snr_from_taps
+        fold = np.real(np.exp(-1j * np.outer(theta, np.arange(c.size) - centre)) @ c)
+        return folded_snr_from_taps(self.taps, 1.0 / self.noise_var, n) * np.maximum(fold, 0.0)
 
     def capacity_bps(self, rs, beta, n_grid=4096):
         bits, _ = water_filling(self.folded_snr(rs, beta, n_grid))
@@ -123,7 +148,7 @@ class ChannelMedium:
         self.bandwidth_hz = float(channel.bandwidth_hz)
         self.time_varying = bool(time_varying)
         fc, b = self.carrier_hz, self.bandwidth_hz
-        self._memo = {}
+        self._memo = _Memo()
         if snr_db is not None:
             grid = np.linspace(fc - b / 2, fc + b / 2, 513)
             h2_band = np.abs(self.design.transfer_function(grid).values) ** 2
@@ -141,10 +166,9 @@ class ChannelMedium:
     def _setup_variation(self, time_varying):
         """Mean-power channel and per-path fluctuation for a time-varying channel.
 
-        The channel stage's surface model gives a rough-surface path the gain ``g exp(j phi(t))``
-        (unit-modulus fluctuation, ``chi = exp(-std^2/2)`` the Eckart coherent factor), so its mean
-        power is ``|g|^2``, of which the fraction ``chi^2`` is steady and the rest fluctuates with
-        the path's rms Doppler spread; paths with another Doppler factor than the strongest turn
+        The channel stage's surface model (``Channel.fluctuation``) keeps a surface path's
+        coherent part steady and gives its scattered sub-paths zero-mean gains (steady fraction 0)
+        with their rms Doppler width; paths with another Doppler factor than the strongest turn
         against it at ``(a_p - a_0) fc``. Predictions use the mean-power channel (``design``)
         and charge the part of the fluctuation a receiver cannot follow as noise
         (:meth:`variation_noise`).
@@ -154,17 +178,12 @@ class ChannelMedium:
         self._fluct = None
         if not (time_varying and ch.is_time_varying):
             return
-        from aculink.channel.variation import surface_phase_std
-
-        p = ch.n_paths
-        std = np.zeros(p)
-        if ch.surface is not None and getattr(ch.surface, "active", False):
-            rough = ch.surface_grazing_sin2_sum > 0
-            std[rough] = surface_phase_std(ch.surface_grazing_sin2_sum[rough], ch.carrier_hz, ch.surface)
+        # the channel stage's per-path model: steady (coherent) paths, zero-mean scattered sub-paths
+        fl = ch.fluctuation
         power = np.mean(np.abs(ch.gain) ** 2, axis=1)
         strongest = int(np.argmax(power))
-        self._fluct = dict(power=power, steady=np.exp(-np.minimum(std ** 2, 600.0)),
-                           spread_hz=np.asarray(ch.surface_doppler_spread_hz, dtype=float),
+        self._fluct = dict(power=power, steady=np.asarray(fl.steady_fraction, dtype=float),
+                           spread_hz=np.asarray(fl.doppler_spread_hz, dtype=float),
                            offset_hz=(ch.doppler - ch.doppler[strongest]) * ch.carrier_hz)
 
     def variation_noise(self, lag_s: float) -> float:
@@ -198,9 +217,12 @@ class ChannelMedium:
 
     def memo(self, key, func):
         """Per-channel cache of quantities that do not depend on the receiver."""
-        if key not in self._memo:
-            self._memo[key] = func()
-        return self._memo[key]
+        return self._memo.get_or(key, func)
+
+    def pulse_acf(self, beta, n_lags, sps=2):
+        """Autocorrelation at lags ``k T/sps`` of white noise through the receive filter (unit at
+        lag 0): the exact raised cosine, as the response (:meth:`response`) is exact too."""
+        return raised_cosine(np.arange(int(n_lags)) / sps, beta)
 
     def check_rate(self, rs, beta):
         b = self.bandwidth_hz
@@ -275,6 +297,25 @@ class ChannelMedium:
 
     def spread_s(self, rs):
         return float(self.channel.delay_s.max() - self.channel.delay_s.min())
+
+
+def cached_medium(channel, budget=None, snr_db=None, *, time_varying=True):
+    """The medium of ``channel``, kept on the channel object itself (a Channel) or built anew (a
+    tap list, cheap): asking about many candidates on one channel sets it up once, and the cache
+    goes when the channel goes, so nothing needs clearing."""
+    if not is_channel(channel):
+        return make_medium(channel, budget, snr_db, time_varying=time_varying)
+    memo = channel.__dict__.get("_modem_media")
+    if memo is None:
+        memo = _Memo()
+        object.__setattr__(channel, "_modem_media", memo)  # a cache, not a field of the frozen Channel
+    key = (id(budget), snr_db, bool(time_varying))
+    hit = memo.get(key)
+    if hit is not None and hit[0] is budget:
+        return hit[1]
+    medium = make_medium(channel, budget, snr_db, time_varying=time_varying)
+    memo[key] = (budget, medium)
+    return medium
 
 
 def make_medium(channel, budget=None, snr_db=None, *, doppler=0.0, carrier_hz=None, time_varying=True):

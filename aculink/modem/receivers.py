@@ -78,7 +78,7 @@ def pll_gains(loop_bandwidth: float, damping: float = 1 / math.sqrt(2)) -> tuple
 
     References
     ----------
-    Rice (2009), appendix C (from memory); REFERENCES.md section 10a check value: zeta = 0.7071,
+    Rice (2009), appendix C (from memory); [Rice2009] check value: zeta = 0.7071,
     BnT = 0.01 give K1 = 0.026313, K2 = 3.5085e-4.
     """
     bn = check_range("pll_bandwidth", loop_bandwidth, 0.0, 0.25)
@@ -241,7 +241,14 @@ class FrameOutput:
     ff: np.ndarray
     fb: np.ndarray
     fb_delays: np.ndarray
-    restarts: int
+    restarts: int           # numerical restarts of the RLS recursion
+    recoveries: int         # restores of the last healthy state after a divergence
+    gave_up_at: int         # symbol at which the receiver gave up on the frame, -1 if it did not
+
+    @property
+    def diverged(self) -> bool:
+        """The receiver diverged and could not recover within the frame."""
+        return self.gave_up_at >= 0
 
 
 def run_frame(plan: ReceiverPlan, stream, start0: int, n_sym: int, train_labels, points,
@@ -249,7 +256,10 @@ def run_frame(plan: ReceiverPlan, stream, start0: int, n_sym: int, train_labels,
     """Run the receiver's kernel over one frame of the normalised T/2 stream.
 
     ``start0`` is the stream index of symbol 0's window start. Adaptive receivers start from
-    zero taps; the fixed receivers use ``design``.
+    zero taps; the fixed receivers use ``design``. Every kernel watches itself for divergence
+    (:mod:`aculink.modem._kernels`: a running a-priori error and the tap energy against their
+    end-of-training values; the last healthy taps, RLS matrix and loop state are restored up to
+    ``MAX_RECOVERIES`` times, then the frame is given up and reported as diverged).
     """
     need = start0 + (n_sym - 1) * 2 + plan.n_ff
     if need > stream.size:
@@ -266,23 +276,24 @@ def run_frame(plan: ReceiverPlan, stream, start0: int, n_sym: int, train_labels,
         fbd = np.zeros(0, dtype=np.int64)
     n = plan.n_ff + fbd.size
     out = [np.zeros(n_sym), np.zeros(n_sym), np.zeros(n_sym, np.int64), np.zeros(n_sym), np.zeros(n_sym)]
+    info = np.zeros(3, dtype=np.int64)
     train = np.asarray(train_labels, dtype=np.int64)
     k1, k2 = pll
     if plan.receiver in ("none", "mmse-dfe"):
         w = np.concatenate([design.ff, design.fb]) if plan.receiver == "mmse-dfe" else np.ones(1, complex)
         wr, wi = w.real.copy(), w.imag.copy()
         scale = 1.0 / design.bias if plan.receiver == "mmse-dfe" else 1.0
-        restarts = _kernels.fixed_dfe(yr, yi, start0, 2, n_sym, plan.n_ff, fbd, train, train.size, pr, pi,
-                                      scale, k1, k2, 0, 0.0, *out, wr, wi)
+        _kernels.fixed_dfe(yr, yi, start0, 2, n_sym, plan.n_ff, fbd, train, train.size, pr, pi,
+                           scale, k1, k2, 0, 0.0, *out, wr, wi, info)
     else:
         wr, wi = np.zeros(n), np.zeros(n)
         pll_start = train.size // 2
         if plan.algorithm == "rls":
-            restarts = _kernels.rls_dfe(yr, yi, start0, 2, n_sym, plan.n_ff, fbd, train, train.size, pr, pi,
-                                        plan.forgetting, rls_delta, k1, k2, pll_start, 0.0, *out, wr, wi)
+            _kernels.rls_dfe(yr, yi, start0, 2, n_sym, plan.n_ff, fbd, train, train.size, pr, pi,
+                             plan.forgetting, rls_delta, k1, k2, pll_start, 0.0, *out, wr, wi, info)
         else:
-            restarts = _kernels.nlms_dfe(yr, yi, start0, 2, n_sym, plan.n_ff, fbd, train, train.size, pr, pi,
-                                         plan.step, 1e-6, k1, k2, pll_start, 0.0, *out, wr, wi)
+            _kernels.nlms_dfe(yr, yi, start0, 2, n_sym, plan.n_ff, fbd, train, train.size, pr, pi,
+                              plan.step, 1e-6, k1, k2, pll_start, 0.0, *out, wr, wi, info)
     w = wr + 1j * wi
     return FrameOutput(out[0] + 1j * out[1], out[2], out[3], out[4], w[:plan.n_ff], w[plan.n_ff:], fbd,
-                       int(restarts))
+                       int(info[0]), int(info[1]), int(info[2]))

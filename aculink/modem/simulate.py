@@ -29,10 +29,14 @@ from aculink.modem.media import make_medium
 from aculink.modem.predict import DEFAULT_ROLLOFF, predict_link
 from aculink.modem.receivers import (check_algorithm, check_receiver, design_for, feedback_delays, pll_gains,
                                      plan_receiver, run_frame)
-from aculink.modem.media import _rc_pulse
+from aculink.modem.pulses import raised_cosine
 
 #: Extra T/2 samples around the span in the least-squares channel estimate.
 _ESTIMATE_MARGIN = 4
+#: A frame whose decisions on the known tail marker are wrong more often than this has lost
+#: lock (a cycle slip or a decision-directed capture that the error cannot show): it counts as
+#: failed (common practice, no source: a known postamble as a check of the frame).
+TAIL_CHECK_SER = 0.5
 #: Outputs kept for the constellation picture.
 _KEEP_POINTS = 4000
 
@@ -50,9 +54,18 @@ class LinkResult:
     """Outcome of :func:`simulate_link` (SNRs in dB, rates in bit/s).
 
     ``snr_in_db``: band SNR (Es/N0 for a tap list); ``snr_out_db``: measured unbiased output
-    SNR of the payload decisions, ``|alpha|^2 Es / E|z - alpha d|^2`` with ``alpha`` the
-    regression of the outputs on the sent symbols; ``snr_predicted_db`` and
-    ``ber_predicted`` from :func:`predict_link` with the same spans.
+    SNR of the payload decisions of the frames that were received (NaN when none was),
+    ``|alpha|^2 Es / E|z - alpha d|^2`` with ``alpha`` the regression of the outputs on the sent
+    symbols; ``snr_predicted_db`` and ``ber_predicted`` from :func:`predict_link` with the same
+    spans.
+
+    Status: a frame *fails* when the front end lost it (the training is not where the
+    preamble peak says, on any of the candidate peaks), when the receiver diverged beyond
+    recovery, or when it lost lock: its decisions on the known tail marker (the receiver runs
+    on through it, decision directed) are wrong more often than ``TAIL_CHECK_SER``. Every payload bit of a failed frame is counted as a bit error (the frame
+    delivers nothing). The link is ``closed`` when no frame failed and the measured BER is at
+    most ``target_ber``; otherwise ``failure`` says why in words and ``net_bit_rate_bps`` is
+    0 (``frame_bit_rate_bps`` keeps what the frame would carry).
     """
 
     ber: float
@@ -86,14 +99,89 @@ class LinkResult:
     ff_taps: np.ndarray = field(repr=False)
     fb_taps: np.ndarray = field(repr=False)
     fb_delays: np.ndarray = field(repr=False)
+    closed: bool = True
+    failure: str = ""
+    target_ber: float = 1e-4
+    frame_bit_rate_bps: float = 0.0
+    frames_lost: int = 0
+    frames_diverged: int = 0
+    recoveries: int = 0
+    resyncs: int = 0
+    doppler_bound: float = 0.0
+    doppler_note: str = ""
 
     def to_dict(self) -> dict:
         """Scalar fields, for JSON."""
-        keys = ("ber", "ber_low", "ber_high", "bit_errors", "bits", "symbol_errors", "symbols", "frames",
+        keys = ("closed", "failure", "ber", "ber_low", "ber_high", "target_ber", "bit_errors", "bits",
+                "symbol_errors", "symbols", "frames", "frames_lost", "frames_diverged", "recoveries", "resyncs",
                 "snr_in_db", "es_n0_db", "snr_out_db", "snr_predicted_db", "ber_predicted", "training_fraction",
-                "net_bit_rate_bps", "symbol_rate_baud", "modulation", "receiver", "algorithm", "rolloff",
-                "n_ff", "n_fb", "n_training", "n_payload", "doppler_estimate", "restarts")
+                "net_bit_rate_bps", "frame_bit_rate_bps", "symbol_rate_baud", "modulation", "receiver", "algorithm",
+                "rolloff", "n_ff", "n_fb", "n_training", "n_payload", "doppler_estimate", "doppler_bound",
+                "doppler_note", "restarts")
         return {k: getattr(self, k) for k in keys}
+
+
+def _default_target_ber() -> float:
+    """The site file's default ``[modem] target_ber``."""
+    from dataclasses import fields
+
+    from aculink.site.model import Modem
+
+    return float(next(f.default for f in fields(Modem) if f.name == "target_ber"))
+
+
+#: Motion every site has on top of its platforms' (mooring swing, currents, drift): 0.1 m/s
+#: at 1500 m/s (common practice, no source).
+_DOPPLER_BOUND_FLOOR = 0.1 / 1500.0
+#: Standard deviations of the surface Doppler spread counted in the bound.
+_SURFACE_SIGMAS = 3.0
+
+
+def doppler_bound(medium) -> float:
+    """Largest time scale |a| the channel can physically produce, for the front end's search.
+
+    A site channel: the largest platform Doppler factor of its paths plus
+    ``_SURFACE_SIGMAS`` rms surface Doppler spreads (as a time scale, spread / fc) plus a floor
+    for unmodelled drift. A tap list: the default bound (a fast vehicle), or 1.5 times its
+    Doppler option when that is larger.
+    """
+    from aculink.modem.frontend import DEFAULT_MAX_DOPPLER
+
+    ch = getattr(medium, "channel", None)
+    if ch is None:
+        return max(DEFAULT_MAX_DOPPLER, 1.5 * abs(float(getattr(medium, "doppler", 0.0))))
+    platform = float(np.max(np.abs(ch.doppler), initial=0.0)) if ch.doppler is not None else 0.0
+    spread = np.asarray(ch.surface_doppler_spread_hz if ch.surface_doppler_spread_hz is not None else [0.0], float)
+    surface = _SURFACE_SIGMAS * float(np.max(spread, initial=0.0)) / float(ch.carrier_hz)
+    return platform + surface + _DOPPLER_BOUND_FLOOR
+
+
+#: Diagonal loading of the noise autocorrelation in the designs made from a channel estimate,
+#: relative to its zero lag: the T/2 matched-filter noise (and the signal) occupy only
+#: (1 + rolloff)/2 of the T/2 band, so the design matrix is singular up to rounding without it;
+#: -40 dB changes the design's MSE by far less than the estimate's own error (common practice,
+#: no source).
+_DESIGN_LOADING = 1e-4
+
+
+def design_noise_acf(noise_var: float, n_lags: int, rolloff: float) -> np.ndarray:
+    """Noise autocorrelation at T/2 lags for a design from the estimate: ``sigma^2 rc(m/2)``
+    (white noise through the matched RRC filters gives the raised-cosine pulse; Proakis 2001,
+    section 9.2), loaded by ``_DESIGN_LOADING``."""
+    acf = noise_var * raised_cosine(np.arange(n_lags) / 2, rolloff)
+    acf[0] *= 1.0 + _DESIGN_LOADING
+    return acf
+
+
+def _failure_text(lost: int, diverged: int, frames: int, ber: float, target: float) -> str:
+    why = []
+    if lost:
+        why.append(f"lost sync in {lost} of {frames} frames")
+    if diverged:
+        why.append(f"receiver diverged or lost lock in {diverged} of {frames} frames")
+    if ber > target:
+        why.append(f"measured BER {ber:.2g} above the target {target:.2g}")
+    return "; ".join(why)
 
 
 def _count_arg(name, value, low):
@@ -107,7 +195,7 @@ def simulate_link(channel, *, symbol_rate_baud, modulation, receiver, budget=Non
                   samples_per_symbol=4, n_training=None, n_payload=None, n_ff=None, n_fb=None,
                   sparse=False, n_sparse=None, forgetting=None, step_size=None, pll_bandwidth=None,
                   pll_damping=1 / math.sqrt(2), doppler=0.0, carrier_hz=None, time_varying=True,
-                  track_doppler=True) -> LinkResult:
+                  track_doppler=True, target_ber=None, max_doppler=None) -> LinkResult:
     """Simulate a single-carrier PSK/QAM link and count bit errors.
 
     Parameters
@@ -157,6 +245,11 @@ def simulate_link(channel, *, symbol_rate_baud, modulation, receiver, budget=Non
         Let a Channel vary in time (surface motion, path Doppler).
     track_doppler : bool
         Estimate and undo the time scale in the front end.
+    target_ber : float, optional
+        BER the link must meet to count as closed (default: the site file's default, 1e-4).
+    max_doppler : float, optional
+        Largest time scale |a| the front end searches (default :func:`doppler_bound` of the
+        channel: platform Doppler plus the surface; for a tap list a fast vehicle).
 
     Returns
     -------
@@ -192,7 +285,10 @@ def simulate_link(channel, *, symbol_rate_baud, modulation, receiver, budget=Non
     pred = predict_link(channel, budget, rs, mod, receiver, rolloff=beta, snr_db=snr_db, algorithm=algorithm,
                         n_ff=n_ff, n_fb=n_fb, sparse=sparse, n_sparse=n_sparse, n_training=n_training,
                         n_payload=n_payload, forgetting=forgetting, step_size=step_size,
-                        time_varying=time_varying)
+                        time_varying=time_varying, known_channel=False if receiver == "mmse-dfe" else None)
+    target = _default_target_ber() if target_ber is None else check_range("target_ber", target_ber, 0.0, 0.5,
+                                                                            low_open=True, high_open=True)
+    a_bound = doppler_bound(medium) if max_doppler is None else check_range("max_doppler", max_doppler, 0.0, 0.01)
     pll_still = pll_gains(0.002 if pll_bandwidth is None else pll_bandwidth, pll_damping)
     pll_moving = pll_gains(0.005 if pll_bandwidth is None else pll_bandwidth, pll_damping)
     const = constellation(mod)
@@ -203,17 +299,25 @@ def simulate_link(channel, *, symbol_rate_baud, modulation, receiver, budget=Non
     n_post = (q_known.size - 1 - m_known) + _ESTIMATE_MARGIN if receiver != "none" else 0
     n_pre = min(n_pre, 2 * plan.pre_symbols + 2 * 10 + _ESTIMATE_MARGIN)
     n_post = min(n_post, 2 * plan.post_symbols + 2 * 10 + _ESTIMATE_MARGIN)
+    # the least-squares estimate needs far more rows (2 per training symbol) than taps: at most
+    # one tap per two training symbols, shortened on both sides in proportion
+    if n_pre + n_post + 1 > layout.n_train // 2:
+        keep = (layout.n_train // 2 - 1) / (n_pre + n_post)
+        n_pre, n_post = int(n_pre * keep), int(n_post * keep)
     spread_samples = int(math.ceil(medium.spread_s(rs) * rs * sps))
     carrier = getattr(medium, "carrier_hz", None) or 1.0
 
     n_frame = layout.n_train + layout.n_payload
-    bit_err = bits = sym_err = syms = frames = restarts = 0
+    bit_err = bits = sym_err = syms = frames = restarts = recoveries = resyncs = 0
+    lost = diverged = 0
     s_zd = 0j
     s_dd = s_zz = 0.0
     curve = np.zeros(n_frame)
+    n_curves = 0
     kept = []
     last = None
     dopp = []
+    notes = []
     root = np.random.SeedSequence(int(seed))
     while syms < n_symbols and bit_err < max_errors:
         fs_seq = root.spawn(1)[0]
@@ -229,12 +333,24 @@ def simulate_link(channel, *, symbol_rate_baud, modulation, receiver, budget=Non
         sync = synchronise(y, rolloff=beta, sps=sps, sync_head=symbols[:SYNC_SYMBOLS], sync_tail=tail,
                            training=symbols[:layout.n_train], n_frame_symbols=n_frame, n_pre=n_pre,
                            n_post=n_post, sample_rate_hz=rs * sps, carrier_hz=carrier,
-                           track_doppler=track_doppler)
+                           track_doppler=track_doppler, max_doppler=a_bound, spread_samples=spread_samples)
         dopp.append(sync.doppler)
+        notes.append(sync.doppler_note)
+        resyncs += sync.resyncs
+        frames += 1
+        pay = slice(layout.n_train, n_frame)
+        sent = labels[pay]
+        bits += sent.size * k
+        syms += sent.size
+        if not sync.detected:  # a lost frame delivers nothing: all its bits are errors
+            lost += 1
+            bit_err += sent.size * k
+            sym_err += sent.size
+            continue
         design = None
         fbd = np.arange(1, plan.n_fb + 1)
         if receiver != "none":
-            acf = sync.noise_var * _rc_pulse(np.arange(plan.n_ff) / 2, beta)
+            acf = design_noise_acf(sync.noise_var, plan.n_ff, beta)
             design = design_for(plan, sync.q, sync.q_peak, acf)
             if plan.sparse:
                 fbd = feedback_delays(sync.q, plan.n_ff, design.start, plan.n_fb, plan.n_sparse)
@@ -242,42 +358,60 @@ def simulate_link(channel, *, symbol_rate_baud, modulation, receiver, budget=Non
             start0 = sync.start - sync.q_peak + design.start
         else:
             start0 = sync.start
-        out = run_frame(plan, sync.stream, start0, n_frame, labels[:layout.n_train], pts,
+        # the receiver runs on through the tail marker, decision directed, as a check of its lock
+        out = run_frame(plan, sync.stream, start0, layout.n_sent, labels[:layout.n_train], pts,
                         design=design, fb_delays=fbd,
                         pll=pll_moving if abs(sync.doppler) > 1e-4 else pll_still)
         restarts += out.restarts
-        pay = slice(layout.n_train, n_frame)
+        recoveries += out.recoveries
+        curve += out.err2[:n_frame]
+        n_curves += 1
+        last = out
+        tail_ser = float(np.mean(out.decisions[n_frame:] != labels[n_frame:]))
+        if out.diverged or tail_ser > TAIL_CHECK_SER:  # given up, or lost: the frame delivers nothing
+            diverged += 1
+            bit_err += sent.size * k
+            sym_err += sent.size
+            continue
         dec = out.decisions[pay]
-        sent = labels[pay]
         bit_err += int(np.count_nonzero(const.bits_of(dec) != const.bits_of(sent)))
-        bits += sent.size * k
         sym_err += int(np.count_nonzero(dec != sent))
-        syms += sent.size
         z = out.z[pay]
         d = pts[sent]
         s_zd += np.vdot(d, z)
         s_dd += float(np.vdot(d, d).real)
         s_zz += float(np.vdot(z, z).real)
-        curve += out.err2
-        frames += 1
         kept.append(z[-_KEEP_POINTS:])
-        last = out
-    alpha = s_zd / s_dd
-    resid = s_zz - 2 * (np.conj(alpha) * s_zd).real + abs(alpha) ** 2 * s_dd
-    snr_meas = abs(alpha) ** 2 * s_dd / max(resid, 1e-300)
+    if s_dd > 0:
+        alpha = s_zd / s_dd
+        resid = s_zz - 2 * (np.conj(alpha) * s_zd).real + abs(alpha) ** 2 * s_dd
+        snr_out_db = 10 * math.log10(max(abs(alpha) ** 2 * s_dd / max(resid, 1e-300), 1e-300))
+    else:
+        snr_out_db = float("nan")
     lo, hi = clopper_pearson(bit_err, bits)
-    curve = xr.DataArray(curve / frames, dims="symbol",
+    curve = xr.DataArray(curve / max(n_curves, 1), dims="symbol",
                          coords={"symbol": ("symbol", np.arange(n_frame), {"long_name": "symbol index in the frame", "units": "1"})},
                          name="squared_error",
                          attrs={"units": "1", "long_name": "squared error |d - z|^2 (training, then decision directed), mean over frames",
                                 "n_training": layout.n_train})
-    pts_kept = np.concatenate(kept)[-_KEEP_POINTS:]
+    pts_kept = np.concatenate(kept)[-_KEEP_POINTS:] if kept else np.zeros(0, complex)
+    ber = bit_err / bits
+    failure = _failure_text(lost, diverged, frames, ber, target)
+    frame_rate = rs * k * layout.payload_fraction
+    n_fb_used = int(last.fb_delays.size) if last is not None else (plan.n_fb if receiver in ("dfe", "mmse-dfe") else 0)
+    empty = np.zeros(0, complex)
+    applied = [n for n in notes if n]
     return LinkResult(
-        ber=bit_err / bits, ber_low=lo, ber_high=hi, bit_errors=bit_err, bits=bits, symbol_errors=sym_err,
+        ber=ber, ber_low=lo, ber_high=hi, bit_errors=bit_err, bits=bits, symbol_errors=sym_err,
         symbols=syms, frames=frames, snr_in_db=float(medium.snr_in_db), es_n0_db=pred.es_n0_db,
-        snr_out_db=10 * math.log10(snr_meas), snr_predicted_db=pred.snr_out_db, ber_predicted=pred.ber_predicted,
-        training_fraction=layout.training_fraction, net_bit_rate_bps=rs * k * layout.payload_fraction,
+        snr_out_db=snr_out_db, snr_predicted_db=pred.snr_out_db, ber_predicted=pred.ber_predicted,
+        training_fraction=layout.training_fraction, net_bit_rate_bps=0.0 if failure else frame_rate,
         symbol_rate_baud=rs, modulation=mod, receiver=receiver, algorithm=algorithm if receiver in ("linear", "dfe") else "none",
-        rolloff=beta, n_ff=plan.n_ff, n_fb=int(last.fb_delays.size), n_training=layout.n_train,
+        rolloff=beta, n_ff=plan.n_ff, n_fb=n_fb_used, n_training=layout.n_train,
         n_payload=layout.n_payload, doppler_estimate=float(np.median(dopp)), restarts=restarts,
-        learning_curve=curve, constellation=pts_kept, ff_taps=last.ff, fb_taps=last.fb, fb_delays=last.fb_delays)
+        learning_curve=curve, constellation=pts_kept, ff_taps=last.ff if last is not None else empty,
+        fb_taps=last.fb if last is not None else empty,
+        fb_delays=last.fb_delays if last is not None else np.zeros(0, np.int64),
+        closed=not failure, failure=failure, target_ber=target, frame_bit_rate_bps=frame_rate, frames_lost=lost,
+        frames_diverged=diverged, recoveries=recoveries, resyncs=resyncs, doppler_bound=a_bound,
+        doppler_note=max(set(applied), key=applied.count) if applied else "")

@@ -16,8 +16,9 @@ cosine spectrum of excess bandwidth ``rolloff`` occupies ``Rs (1 + rolloff)``), 
 ladder below it, so every modulation's bit rate is tried at each octave of symbol rate.
 
 The default evaluator, :func:`evaluate_block`, chains the real stages: one
-``find_arrivals`` call for the whole block, then per receiver a :class:`Channel`, its
-statistics, the link budget and ``predict_link`` for each candidate.
+``find_arrivals`` call for the whole block, then per receiver a :class:`Channel`, its 90%
+energy spread, the link budget and ``predict_link`` for the candidates that can still win
+(:func:`predict_point`; the modem stage designs each receiver once per symbol rate).
 """
 
 from __future__ import annotations
@@ -230,10 +231,9 @@ def evaluate_block(site, ranges_m, depths_m, grid: CandidateGrid, target_ber, ma
                 channel = Channel.from_arrivals(arrivals, site, range_m=r, depth_m=depths[j])
                 here = site.with_geometry(range_m=r, depth_m=depths[j])
                 budget = link_budget(here, channel)
-                stats = channel.statistics()
                 out["snr_band_db"][i, j] = float(budget.snr_band_db)
                 out["tl_db"][i, j] = float(budget.tl_db)
-                out["spread_90_s"][i, j] = float(stats["spread_90_s"])
+                out["spread_90_s"][i, j] = spread_90_s(channel)
                 if not channel.is_empty:
                     predict_point(out, (i, j), channel, budget, grid, rolloff, target_ber, margin_db)
             except AculinkError as exc:
@@ -246,33 +246,71 @@ def evaluate_block(site, ranges_m, depths_m, grid: CandidateGrid, target_ber, ma
 def predict_point(out, at, channel, budget, grid, rolloff, target_ber, margin_db) -> None:
     """Fill the predictions of one receiver position, skipping candidates that cannot win.
 
-    Per receiver, symbol rates are tried fastest first; a symbol rate whose best possible net
-    bit rate (every symbol carrying the most bits any candidate modulation carries, no
-    training) does not exceed the receiver's best workable rate found so far is skipped, its
-    entries left NaN. The skipped candidates could never be chosen, so the workable rate per
-    receiver (and overall) is exactly that of the full search; the modem stage's estimate
-    costs tens of milliseconds per (receiver, symbol rate), which makes this worth doing.
+    The modem stage keeps everything of an estimate that does not depend on the modulation
+    (the receiver's spans, its finite-length design and output SNR, the frame) on the channel
+    object, so the design is computed once per (receiver, symbol rate) and each further
+    modulation costs only its error rate (which carries the modem's per-modulation error
+    propagation, so it is not a function of the output SNR alone).
+
+    Skip rule (exact). The net bit rate of a candidate is ``Rs log2(M) f`` with the frame's
+    payload fraction ``f < 1`` (every frame carries its sync preamble and tail,
+    :mod:`aculink.modem.frames`), and ``f`` is the same for every modulation at one (receiver,
+    symbol rate). Per receiver, symbol rates are tried fastest first and, at each rate,
+    modulations from the most bits per symbol down; ``best`` is the receiver's highest
+    workable net rate found so far. A candidate is skipped (its entries left NaN) when
+
+    * ``Rs log2(M) <= best``: its net rate is strictly below ``best``, or
+    * a modulation with more bits per symbol is workable at the same (receiver, rate): its net
+      rate is smaller by the factor of their bits.
+
+    Either way its rate is below ``best`` by far more than the relative 1e-12 that
+    :func:`select_workable` counts as a tie, so it can neither win nor tie: the choice per
+    receiver (and overall) is exactly that of the full search (tested against the loop over
+    every candidate).
     """
     from aculink.modem import predict_link
-    from aculink.modem.constellations import MODULATIONS as BITS
 
     need = out["snr_required_db"]
-    max_bits = max(BITS[m] for m in grid.modulations)
-    order = np.argsort(-np.asarray(grid.symbol_rates_baud), kind="stable")
+    bits = modulation_bits(grid.modulations)
+    by_bits = np.argsort(-bits, kind="stable")
+    rates = np.asarray(grid.symbol_rates_baud)
     for a, rx in enumerate(grid.receivers):
         best = 0.0
-        for b in order:
-            rs = grid.symbol_rates_baud[b]
-            if rs * max_bits <= best:
-                continue
-            for c, mod in enumerate(grid.modulations):
-                p = predict_link(channel, budget, rs, mod, rx, rolloff=rolloff)
+        for b in np.argsort(-rates, kind="stable"):
+            rs = float(rates[b])
+            won_bits = 0.0
+            for c in by_bits:
+                if rs * bits[c] <= best or bits[c] < won_bits:
+                    continue
+                p = predict_link(channel, budget, rs, grid.modulations[c], rx, rolloff=rolloff)
                 snr, ber, rate = float(p.snr_out_db), float(p.ber_predicted), float(p.net_bit_rate_bps)
                 out["snr_out_db"][at + (a, b, c)] = snr
                 out["ber_predicted"][at + (a, b, c)] = ber
                 out["net_bit_rate_bps"][at + (a, b, c)] = rate
-                if ber <= target_ber and snr - need[c] >= margin_db and rate > best:
-                    best = rate
+                if ber <= target_ber and snr - need[c] >= margin_db and rate > 0:
+                    won_bits = max(won_bits, bits[c])
+                    best = max(best, rate)
+
+
+def modulation_bits(modulations) -> np.ndarray:
+    """Bits per symbol, log2(M), of each modulation (from the modem stage's table)."""
+    from aculink.modem.constellations import MODULATIONS as BITS
+
+    return np.array([BITS[m] for m in modulations], dtype=float)
+
+
+def spread_90_s(channel) -> float:
+    """The shortest delay window holding 90% of the path energy, s (NaN for no paths).
+
+    The one channel statistic the planner stores; computed alone, the same way as the channel
+    stage's ``statistics()["spread_90_s"]``, without the correlation scans the others need.
+    """
+    from aculink.channel.stats import energy_spread, path_powers
+
+    if channel.is_empty:
+        return math.nan
+    power = path_powers(channel)
+    return energy_spread(channel.delay_s, power, 0.9) if power.sum() > 0 else math.nan
 
 
 #: Frequencies across the modem band at which the arrivals are evaluated (as the channel stage's
@@ -353,7 +391,9 @@ def site_with_wind(site, wind_speed_mps):
         return site
     from aculink.site.surface import rms_wave_height_pierson_moskowitz
 
-    w = check_range("wind_mps", wind_speed_mps, 0.0, 40.0, unit="m/s")
+    from aculink.site.model import LIMITS
+
+    w = check_range("wind_mps", wind_speed_mps, *LIMITS["surface"]["wind_speed_mps"][:2], unit="m/s")
     surface = dataclasses.replace(site.surface, wind_speed_mps=w,
                                   rms_height_m=float(rms_wave_height_pierson_moskowitz(w)))
     noise = dataclasses.replace(site.noise, wind_speed_mps=w)

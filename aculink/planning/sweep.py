@@ -25,13 +25,14 @@ from aculink.errors import AculinkError, check_array, check_range
 from aculink.io.atomic import check_output_path
 from aculink.planning import search
 from aculink.planning.checkpoint import Checkpoint, parts_folder
-from aculink.planning.dask_runner import run_tasks
+from aculink.planning.dask_runner import open_runner
 from aculink.planning.dataset import to_dataset
 from aculink.planning.progress import Progress
+from aculink.site.model import LIMITS as _LIMITS
 
 #: Receiver positions per chunk the automatic chunking aims at: with the real stages this
 #: gives tasks of about a second, above the 0.5-1 s where Dask pays off on these machines
-#: (PERFORMANCE.md, "Dask on these machines").
+#: (measured: about 19 ms of scheduling per task on 2 local workers).
 CHUNK_POINTS = 40
 
 
@@ -124,13 +125,9 @@ def compute_chunk(job: SweepJob, chunk: Chunk) -> dict:
     """
     from threadpoolctl import threadpool_limits
 
-    from aculink.modem.predict import clear_caches
-
-    try:
-        with threadpool_limits(limits=1, user_api="blas"):
-            return _compute_chunk(job, chunk)
-    finally:
-        clear_caches()  # memory must not grow with the chunks a process has done
+    # the modem's estimate caches live on each channel object, so they go with the chunk's channels
+    with threadpool_limits(limits=1, user_api="blas"):
+        return _compute_chunk(job, chunk)
 
 
 def _compute_chunk(job: SweepJob, chunk: Chunk) -> dict:
@@ -196,13 +193,17 @@ def run_sweep(site, ranges_m, depths_m, out, *, source_depths_m=None, winds_mps=
     target_ber, margin_db : float, optional
         Default: the site's ``[modem]`` values.
     workers : int, optional
-        Local Dask worker processes (None: one per core; 0 or 1: serial, in this process).
+        Local Dask worker processes, 0 to 4 x cores (0 or 1: serial, in this process; None:
+        one per core when the sweep is large enough to repay starting them, else serial; see
+        :func:`aculink.planning.dask_runner.local_workers_for`).
     scheduler : str, optional
         Address of an existing Dask scheduler, e.g. ``tcp://10.0.0.5:8786``.
     resume : bool
-        Continue an interrupted sweep from its checkpoint folder ``OUT.parts``.
+        Continue an interrupted sweep from its checkpoint folder ``OUT.parts`` (the same
+        settings; it may replace ``out`` if it was started with ``overwrite``).
     overwrite : bool
-        Replace an existing ``out`` (and discard an unfinished sweep's checkpoints).
+        Start over: discard an unfinished sweep's checkpoints and replace an existing ``out``.
+        Excludes ``resume`` (:data:`aculink.planning.checkpoint.RULE`).
     quiet : bool
         No progress bar.
     chunk_ranges : int, optional
@@ -221,12 +222,11 @@ def run_sweep(site, ranges_m, depths_m, out, *, source_depths_m=None, winds_mps=
     Raises
     ------
     AculinkError
-        Bad grid, output that exists (without ``overwrite``) or cannot be written, a
-        checkpoint of a different sweep, an unreachable scheduler. Nothing computed is lost:
-        finished chunks stay in the checkpoint folder.
+        Bad grid or option, output that exists (without ``overwrite``) or cannot be written,
+        a checkpoint of a different sweep, an unreachable scheduler: all before anything is
+        written. Nothing computed is lost: finished chunks stay in the checkpoint folder.
     """
     out = Path(out)
-    check_output_path(out, overwrite=overwrite)
     job, chunk_ranges = prepare_job(site, ranges_m, depths_m, source_depths_m=source_depths_m,
                                     winds_mps=winds_mps, receivers=receivers,
                                     modulations=modulations, symbol_rates_baud=symbol_rates_baud,
@@ -235,27 +235,87 @@ def run_sweep(site, ranges_m, depths_m, out, *, source_depths_m=None, winds_mps=
     chunks = make_chunks(len(job.source_depths_m), 1 if job.winds_mps is None else len(job.winds_mps),
                          len(job.ranges_m), chunk_ranges)
     settings = sweep_settings(job, chunk_ranges)
+    # Every option is checked before the first write: a refused sweep leaves nothing behind.
     ckpt = Checkpoint(parts_folder(out), settings, resume=resume, overwrite=overwrite)
+    replace = check_sweep_output(out, ckpt, overwrite=overwrite)
     done = ckpt.done()
     todo = [c for c in chunks if c.index not in done]
-    bar = Progress(len(chunks), already=len(chunks) - len(todo), enabled=False if quiet else None,
-                   stream=stream)
+    n_points = sum((c.range_stop - c.range_start) for c in todo) * len(job.depths_m)
+    warm = warm_up if job.evaluate is search.evaluate_block else None
+    with open_runner(workers=workers, scheduler=scheduler, n_points=n_points, n_tasks=len(todo),
+                     warm_up=warm) as runner:
+        ckpt.start(replace_output=replace)
+        bar = Progress(len(chunks), already=len(chunks) - len(todo), enabled=False if quiet else None,
+                       stream=stream)
 
-    def save(chunk, result):
-        ckpt.save(chunk.index, result)
-        bar.update()
+        def save(chunk, result):
+            ckpt.save(chunk.index, result)
+            bar.update()
 
-    try:
-        run_tasks(compute_chunk, job, todo, save, workers=workers, scheduler=scheduler, name="chunk")
-    finally:
-        bar.close()
+        try:
+            runner.run(compute_chunk, job, todo, save, name="chunk")
+        finally:
+            bar.close()
+        if getattr(runner, "start_error", None) and not quiet:
+            print(f"aculink: note: ran serially: {runner.start_error}", file=stream or sys.stderr)
     ds = merge_chunks(job, chunks, ckpt, settings, source_swept=source_depths_m is not None)
     from aculink.io.netcdf import write_netcdf
 
-    write_netcdf(ds, out, overwrite=overwrite)
+    write_netcdf(ds, out, overwrite=replace)
     if not keep_parts:
         ckpt.discard()
     return ds
+
+
+def check_sweep_output(out: Path, ckpt: Checkpoint, *, overwrite: bool) -> bool:
+    """Refuse an output the sweep may not replace; return whether it may replace one.
+
+    ``overwrite`` gives the permission; a resumed sweep keeps the one it was started with
+    (stored in its manifest), so "the same command with --resume in place of --overwrite"
+    finishes it (:data:`aculink.planning.checkpoint.RULE`).
+    """
+    replace = bool(overwrite or ckpt.replace_output)
+    if ckpt.resuming and not replace and out.exists():
+        raise AculinkError(f"{out} exists and the unfinished sweep in {ckpt.folder} was started without "
+                           f"--overwrite: move {out} away and rerun with --resume, or start over with "
+                           "--overwrite")
+    check_output_path(out, overwrite=replace)
+    return replace
+
+
+def may_replace_outputs(out, *, resume: bool, overwrite: bool) -> bool:
+    """Whether a sweep to ``out`` may replace existing outputs (OUT itself, its picture).
+
+    True with ``overwrite``, or with ``resume`` when the unfinished sweep in ``OUT.parts`` was
+    started with ``overwrite``; reads only.
+    """
+    if overwrite:
+        return True
+    if not resume:
+        return False
+    manifest = parts_folder(Path(out)) / "manifest.json"
+    try:
+        return bool(json.loads(manifest.read_text(encoding="utf-8")).get("replace_output", False))
+    except (OSError, ValueError, AttributeError):
+        return False
+
+
+def warm_up() -> None:
+    """Run the real stages once on a tiny site of our own, so a fresh process (a Dask worker)
+    loads, or compiles, the numba kernels a sweep uses before its first chunk."""
+    from aculink.site.model import Modem, Noise, Receiver, Seabed, Site, Source, Surface, Water
+    from aculink.site.profile import SoundSpeedProfile
+
+    site = Site(name="warm-up", water=Water(profile=SoundSpeedProfile(np.array([0.0, 60.0]),
+                                                                      np.array([1500.0, 1490.0]))),
+                seabed=Seabed(range_m=np.array([0.0]), depth_m=np.array([60.0]), sound_speed_mps=1650.0,
+                              density_kgm3=1900.0, attenuation_db_per_wavelength=0.8),
+                surface=Surface(4.0, 0.1), noise=Noise(0.5, 4.0, 0.0),
+                source=Source(depth_m=20.0, level_db=170.0), receiver=Receiver(depth_m=30.0, range_m=800.0),
+                modem=Modem(carrier_hz=12000.0, bandwidth_hz=4000.0, rolloff=0.25, target_ber=1e-4,
+                            margin_db=3.0))
+    grid = candidate_grid(site, symbol_rates_baud=[1000.0])
+    search.evaluate_safely(search.evaluate_block, site, [800.0], [30.0], grid, 1e-4, 3.0)
 
 
 def prepare_job(site, ranges_m, depths_m, *, source_depths_m=None, winds_mps=None,
@@ -271,14 +331,14 @@ def prepare_job(site, ranges_m, depths_m, *, source_depths_m=None, winds_mps=Non
         if sources[-1] >= surface_bed:
             raise AculinkError(f"source_depths_m = {sources[-1]:g} m is at or below the seabed "
                                f"at the source ({surface_bed:g} m)")
-    winds = None if winds_mps is None else strictly_increasing("winds_mps", winds_mps, 0.0, 40.0,
+    winds = None if winds_mps is None else strictly_increasing("winds_mps", winds_mps, 0.0, _LIMITS["surface"]["wind_speed_mps"][1],
                                                               unit="m/s", low_open=False)
     grid = candidate_grid(site, receivers=receivers, modulations=modulations,
                           symbol_rates_baud=symbol_rates_baud)
     tb = check_range("target_ber", site.modem.target_ber if target_ber is None else target_ber,
                      0.0, 0.5, low_open=True, high_open=True)
     md = check_range("margin_db", site.modem.margin_db if margin_db is None else margin_db,
-                     0.0, 60.0, unit="dB")
+                     *_LIMITS["modem"]["margin_db"][:2], unit="dB")
     if chunk_ranges is None:
         chunk_ranges = auto_chunk_ranges(len(ranges), len(depths))
     elif int(chunk_ranges) != chunk_ranges or chunk_ranges < 1:

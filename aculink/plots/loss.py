@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import numpy as np
+from matplotlib.colors import ListedColormap
 
 from aculink.plots.rays import draw_section
 from aculink.plots.style import FIELD_CMAP, PALETTE, figure, geometry_text, save, site_title, styled
@@ -23,7 +24,8 @@ def plot_loss(site, tl, path=None, *, incoherent=False, overwrite: bool = True, 
     incoherent : bool
         Draw the incoherent TL instead of the coherent.
     span_db : float
-        Colour span, dB, from the lowest TL in the grid (lower TL = louder = lighter).
+        Colour span, dB, from the lowest TL in the grid (lower TL = louder = lighter). Cells no beam
+        reaches (TL at the dataset's ``tl_cap_db``) are grey.
     """
     from aculink.errors import AculinkError
 
@@ -37,12 +39,20 @@ def plot_loss(site, tl, path=None, *, incoherent=False, overwrite: bool = True, 
     z = tl.depth.values
     ro, zo = np.argsort(r), np.argsort(z)
     values = field.values[ro][:, zo].T
-    lo = float(np.nanpercentile(values, 1.0))
+    # where no beam reaches, TL is the cap: drawn grey, not as the darkest colour of a real (weak) field
+    with np.errstate(invalid="ignore"):
+        silent = values >= float(tl.attrs.get("tl_cap_db", np.inf))
+    values = np.where(silent, np.nan, values)
+    lo = float(np.nanpercentile(values, 1.0)) if np.isfinite(values).any() else 0.0
     fig, ax = figure(1, 1, size=(9.5, 4.8))
     end_m = float(r.max())
     draw_section(ax, site, end_m)
     mesh = ax.pcolormesh(r[ro] / 1e3, z[zo], values, cmap=f"{FIELD_CMAP}_r", vmin=lo, vmax=lo + span_db,
                          shading="nearest", zorder=1, rasterized=True)
+    if silent.any():
+        ax.pcolormesh(r[ro] / 1e3, z[zo], np.ma.masked_where(~silent, np.ones(silent.shape)),
+                      cmap=ListedColormap(["0.85"]), shading="nearest", zorder=1, rasterized=True)
+        ax.text(0.99, 0.02, "grey: no beam reaches", transform=ax.transAxes, ha="right", va="bottom", fontsize=8)
     fig.colorbar(mesh, ax=ax, label=f"{'incoherent' if incoherent else 'coherent'} TL (dB re 1 m)", pad=0.01)
     zs = float(tl.attrs["source_depth_m"])
     ax.plot(0.0, zs, "*", ms=13, color=PALETTE[4], mec="black", mew=0.5, clip_on=False, zorder=6)

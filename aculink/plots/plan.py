@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from aculink.plots.style import (PALETTE, RATE_CMAP, SEABED_COLOUR, figure, geometry_text, save,
+from aculink.plots.style import (PALETTE, RATE_CMAP, SEABED_COLOUR, SOURCE_MARK, figure, geometry_text, save,
                                  site_title, styled)
 
 
@@ -58,52 +58,112 @@ def plot_plan(ds, site, path):
     return save(fig, path)
 
 
+#: Most panels along one extra sweep axis (source depth, wind) in a rate map; more are thinned evenly.
+MAX_FACETS = 4
+_FACET_NAMES = {"source_depth": ("source", "m deep"), "wind": ("wind", "m/s")}
+
+
+def facet_values(ds, dim, limit=MAX_FACETS):
+    """Indices of the values of an extra sweep axis drawn as panels (all, or ``limit`` evenly spaced)."""
+    n = ds.sizes[dim]
+    return list(range(n)) if n <= limit else sorted({int(round(k)) for k in np.linspace(0, n - 1, limit)})
+
+
+def _facet_label(dim, value):
+    name, unit = _FACET_NAMES.get(dim, (dim, ""))
+    return f"{name} {value:g} {unit}".strip()
+
+
+def _draw_map(ax, values, r_km, z, site, norm, cmap):
+    """One panel: the rate cells above the seabed, the seabed on top; returns the mesh."""
+    bed_at_cells = np.asarray(site.seabed.depth_at(r_km * 1000.0), dtype=float)
+    under = z[:, None] >= bed_at_cells[None, :]
+    shown = np.where(values > 0, values, norm.vmin * 1e-3)
+    shown = np.where(np.isfinite(values) & ~under, shown, np.nan)
+    mesh = ax.pcolormesh(r_km, z, shown, cmap=cmap, shading="nearest", norm=norm)
+    dr = float(np.min(np.diff(r_km))) if r_km.size > 1 else max(float(r_km[0]), 1e-3)
+    dz = float(np.min(np.diff(z))) if z.size > 1 else 1.0
+    right = float(r_km.max()) + 0.5 * dr
+    rr = np.linspace(0.0, right, 400)
+    bed = np.asarray(site.seabed.depth_at(rr * 1000.0), dtype=float)
+    bottom = max(float(bed.max()), float(z.max()) + 0.5 * dz) * 1.08
+    ax.fill_between(rr, bed, bottom, color=SEABED_COLOUR, zorder=3, lw=0)
+    ax.plot(rr, bed, color="#6B5334", lw=1.0, zorder=4, label="seabed")
+    ax.set_xlim(0.0, right)
+    ax.set_ylim(bottom, 0.0)
+    ax.grid(False)
+    return mesh
+
+
 @styled
 def plot_rate_map(ds, site, path):
     """Range x depth map of the best workable net bit rate, with the seabed drawn.
 
-    With extra sweep axes (source depth, wind) the first value of each is drawn and named in
-    the title.
+    With extra sweep axes (source depth, wind) one panel is drawn per value (rows: wind,
+    columns: source depth; at most :data:`MAX_FACETS` per axis, evenly spaced, and the title
+    says so), all on one colour scale. Cells under the seabed are left out; the colour bar has
+    a grey "none workable" end only when some cell has no workable rate.
     """
     import matplotlib as mpl
+    import matplotlib.pyplot as plt
 
     rate = ds["net_bit_rate_bps"]
-    extra = {}
-    for dim in [d for d in rate.dims if d not in ("range", "depth")]:
-        extra[dim] = float(ds[dim].values[0])
-        rate = rate.isel({dim: 0})
-    rate = rate.transpose("depth", "range")
+    extra = [d for d in rate.dims if d not in ("range", "depth")]
+    col_dim = "source_depth" if "source_depth" in extra else (extra[0] if extra else None)
+    row_dim = next((d for d in extra if d != col_dim), None)
+    if len(extra) > 2:
+        from aculink.errors import AculinkError
+
+        raise AculinkError(f"rate map: at most two extra sweep axes can be drawn, not {', '.join(extra)}")
+    cols = facet_values(ds, col_dim) if col_dim else [None]
+    rows = facet_values(ds, row_dim) if row_dim else [None]
     r_km = ds["range"].values / 1000.0
     z = ds["depth"].values
-    fig, ax = figure(size=(8.4, 4.8))
-    values = rate.values / 1000.0
+    all_values = rate.values / 1000.0
+    finite = all_values[np.isfinite(all_values) & (all_values > 0)]
+    vmax = float(finite.max()) if finite.size else 1.0
+    vmin = float(finite.min()) if finite.size else 0.1
+    if vmin >= vmax:
+        vmin = vmax / 10.0
+    none_workable = bool(np.any(np.nan_to_num(all_values, nan=1.0) == 0))
     cmap = mpl.colormaps[RATE_CMAP].with_extremes(bad=(0.0, 0.0, 0.0, 0.0), under="#D9D9D9")
-    finite = values[np.isfinite(values) & (values > 0)]
-    vmax = finite.max() if finite.size else 1.0
-    vmin = finite.min() if finite.size else 0.1
-    shown = np.where(values > 0, values, vmin * 1e-3)
-    shown = np.where(np.isfinite(values), shown, np.nan)
-    mesh = ax.pcolormesh(r_km, z, shown, cmap=cmap, shading="nearest", vmin=vmin, vmax=vmax)
-    bar = fig.colorbar(mesh, ax=ax, extend="min")
-    bar.set_label("best workable net bit rate (kbit/s); grey: none workable")
-    rr = np.linspace(0.0, max(r_km.max() * 1.02, 1e-3), 400)
-    bed = np.asarray(site.seabed.depth_at(rr * 1000.0), dtype=float)
-    bottom = max(float(bed.max()), float(z.max())) * 1.08
-    ax.fill_between(rr, bed, bottom, color=SEABED_COLOUR, zorder=3, lw=0)
-    ax.plot(rr, bed, color="#6B5334", lw=1.0, zorder=4, label="seabed")
-    src = extra.get("source_depth", float(ds["source_depth"].values) if "source_depth" in ds.coords else None)
-    if src is not None:
-        ax.plot([0.0], [src], marker="*", ms=11, color="#D55E00", zorder=5, ls="", label="source",
-                clip_on=False)
-    ax.set_xlim(0.0, rr.max())
-    ax.set_ylim(bottom, 0.0)
-    ax.set_xlabel("range (km)")
-    ax.set_ylabel("receiver depth (m)")
-    bits = [geometry_text(src)] if src is not None else []
-    if "wind" in extra:
-        bits.append(f"wind {extra['wind']:g} m/s")
-    ax.set_title(site_title(site, ", ".join(bits))
-                 + f"\nworkable at BER {ds.attrs['target_ber']:.0e} with {ds.attrs['margin_db']:g} dB margin")
-    ax.legend(loc="lower left")
-    ax.grid(False)
+    norm = mpl.colors.LogNorm(vmin=vmin, vmax=vmax) if vmax / vmin > 20 else mpl.colors.Normalize(vmin, vmax)
+    size = (min(4.6 + 3.6 * len(cols), 15.0), min(1.6 + 3.2 * len(rows), 11.0))
+    fig, axes = figure(len(rows), len(cols), size=size if extra else (8.4, 4.8), sharex=True, sharey=True,
+                       squeeze=False)
+    src_fixed = float(ds["source_depth"].values) if "source_depth" in ds.coords and "source_depth" not in extra \
+        else ds.attrs.get("source_depth_m")
+    for i, ri in enumerate(rows):
+        for j, cj in enumerate(cols):
+            ax = axes[i, j]
+            sel, label = {}, []
+            for dim, k in ((row_dim, ri), (col_dim, cj)):
+                if dim is not None:
+                    sel[dim] = k
+                    label.append(_facet_label(dim, float(ds[dim].values[k])))
+            panel = rate.isel(sel).transpose("depth", "range").values / 1000.0
+            mesh = _draw_map(ax, panel, r_km, z, site, norm, cmap)
+            src = float(ds["source_depth"].values[cj]) if col_dim == "source_depth" else src_fixed
+            if src is not None and np.isfinite(src):
+                ax.plot(0.0, src, clip_on=False, zorder=7, **SOURCE_MARK)
+            if extra:
+                ax.set_title(", ".join(label), fontsize=9, loc="left")
+            if i == len(rows) - 1:
+                ax.set_xlabel("range (km)")
+            if j == 0:
+                ax.set_ylabel("receiver depth (m)")
+    bar = fig.colorbar(mesh, ax=axes, extend="min" if none_workable else "neither", shrink=0.9)
+    bar.set_label("best workable net bit rate (kbit/s)" + ("; grey: none workable" if none_workable else ""))
+    thinned = [d for d in extra if ds.sizes[d] > MAX_FACETS]
+    bits = [geometry_text(src_fixed)] if src_fixed is not None and col_dim != "source_depth" else []
+    title = site_title(site, ", ".join(bits))
+    title += f"\nworkable at BER {ds.attrs['target_ber']:.0e} with {ds.attrs['margin_db']:g} dB margin"
+    if thinned:
+        title += "; " + ", ".join(f"{MAX_FACETS} of {ds.sizes[d]} {_FACET_NAMES.get(d, (d,))[0]} values shown"
+                                  for d in thinned)
+    fig.suptitle(title, fontweight="bold", fontsize=10.5)
+    handles = [plt.Line2D([], [], color="#6B5334", lw=6, alpha=0.6, label="seabed")]
+    if src_fixed is not None or col_dim == "source_depth":
+        handles.append(plt.Line2D([], [], label="source", **{**SOURCE_MARK, "ms": 10}))
+    fig.legend(handles=handles, loc="outside lower center", ncol=2, fontsize=8)
     return save(fig, path)

@@ -1,23 +1,41 @@
-"""The ray-fan picture: the fan over the seabed section, beside the sound-speed profile."""
+"""The ray-fan picture: the fan over the seabed section, beside the sound-speed profile.
+
+Rays are shaded by what they carry (``shade="level"``, the default): each stretch of a ray by its
+level relative to the strongest ray at the same range, in dB, from
+:func:`aculink.propagation.fan_levels.ray_levels` (spreading, absorption, seabed and surface
+reflection losses). Rays more than the dynamic range below the strongest are drawn thin and
+light grey. ``shade="angle"`` shades by launch angle, ``shade="boundaries"`` by how many times the
+ray has met the surface or the seabed so far. Eigenrays to the receiver can be drawn on top.
+"""
 
 from __future__ import annotations
+
+import warnings
 
 import numpy as np
 from matplotlib.collections import LineCollection
 from matplotlib.lines import Line2D
 from matplotlib.ticker import MaxNLocator
 
-from aculink.plots.style import PALETTE, SEABED_COLOUR, WATER_COLOUR, figure, geometry_text, save, site_title, styled
+from aculink.plots.style import (FIELD_CMAP, PALETTE, SEABED_COLOUR, WATER_COLOUR, equipment_labels, figure,
+                                 geometry_text, mark_equipment, save, site_title, styled)
 
-__all__ = ["plot_rays", "HISTORY_CLASSES"]
+__all__ = ["plot_rays", "SHADES", "DEFAULT_DYNAMIC_RANGE_DB", "ray_segments", "boundary_counts"]
 
-#: Colour classes by boundary history, Okabe-Ito colours.
-HISTORY_CLASSES = (("refracted only", PALETTE[0]), ("surface only", PALETTE[2]),
-                   ("seabed only", PALETTE[1]), ("surface and seabed", PALETTE[5]))
-
-
-def _history_class(n_surface, n_bottom):
-    return np.where(n_surface > 0, np.where(n_bottom > 0, 3, 1), np.where(n_bottom > 0, 2, 0))
+#: How rays can be shaded, with the colour-bar words of each.
+SHADES = {
+    "level": "level below the strongest ray at the same range (dB)",
+    "angle": "launch angle (deg below horizontal)",
+    "boundaries": "surface and seabed reflections so far",
+}
+#: Rays further than this below the strongest at the same range are drawn faint, dB.
+DEFAULT_DYNAMIC_RANGE_DB = 40.0
+#: Sequential map for counts (a different map from the level's, so the two are not confused).
+COUNT_CMAP = "viridis"
+#: Eigenrays: black line with a white casing, readable over any shading.
+EIGENRAY_COLOUR = "black"
+_FAINT = "#BBBBBB"
+_MAX_POINTS = 400  # per ray in the picture: enough for smooth curves, few enough segments
 
 
 def draw_section(ax, site, end_m):
@@ -35,8 +53,73 @@ def draw_section(ax, site, end_m):
     return floor
 
 
+def boundary_counts(site, range_m, depth_m):
+    """Reflections met so far at each path point of one ray (surface and seabed together).
+
+    A reflection is a path point lying on the surface or on the seabed (the tracer lands exactly on
+    boundaries); the count steps up at that point.
+    """
+    tol = 1e-6 * max(1.0, float(site.seabed.max_depth_m))
+    on_surface = np.abs(depth_m) <= tol
+    on_bed = np.abs(depth_m - np.asarray(site.seabed.depth_at(range_m), dtype=float)) <= tol
+    hit = on_surface | on_bed
+    hit[0] = False  # the launch point is not a reflection
+    return np.cumsum(hit)
+
+
+def ray_segments(range_m, depth_m, value):
+    """Segments between successive path points of one ray, and the value at each segment's start.
+
+    The path is thinned to at most ``_MAX_POINTS`` points, keeping every point where ``value``
+    changes (reflections) so that no corner is cut.
+    """
+    ok = np.isfinite(range_m) & np.isfinite(depth_m)
+    x, z, v = range_m[ok], depth_m[ok], value[ok]
+    if x.size < 2:
+        return np.zeros((0, 2, 2)), np.zeros(0)
+    keep = np.zeros(x.size, dtype=bool)
+    keep[:: max(1, x.size // _MAX_POINTS)] = True
+    keep[-1] = True
+    keep[1:] |= np.diff(v) != 0
+    keep[:-1] |= np.diff(v) != 0
+    turn = np.zeros(x.size, dtype=bool)
+    turn[1:-1] = np.diff(np.sign(np.diff(z))) != 0
+    keep |= turn
+    x, z, v = x[keep], z[keep], v[keep]
+    pts = np.column_stack([x, z])
+    return np.stack([pts[:-1], pts[1:]], axis=1), v[:-1]
+
+
+def _relative_levels(site, fan, freq_hz, bottom_reflection):
+    from aculink.propagation.fan_levels import ray_levels
+
+    ranges, level = ray_levels(site, fan, freq_hz=freq_hz, bottom_reflection=bottom_reflection)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", RuntimeWarning)  # ranges no ray reaches stay NaN
+        strongest = np.nanmax(level, axis=0)
+    return ranges, level - strongest[None, :]
+
+
+def _ray_values(site, fan, shade, freq_hz, bottom_reflection):
+    """The per-point value each ray is shaded by, shape (rays, points)."""
+    r = fan.range_m.values
+    if shade == "angle":
+        return np.broadcast_to(fan.launch_angle_deg.values[:, None], r.shape)
+    if shade == "boundaries":
+        return np.array([boundary_counts(site, ri, di) for ri, di in zip(r, fan.depth_m.values)], dtype=float)
+    ranges, rel = _relative_levels(site, fan, freq_hz, bottom_reflection)
+    out = np.full(r.shape, np.nan)
+    for i, ri in enumerate(r):
+        ok = np.isfinite(rel[i])
+        if ok.any():
+            # the first record is at r_max / n: nearer the source the ray keeps its first value
+            out[i] = np.interp(ri, ranges[ok], rel[i, ok], left=rel[i, ok][0], right=np.nan)
+    return out
+
+
 @styled
-def plot_rays(site, fan, path=None, *, colour_by="bounces", overwrite: bool = True):
+def plot_rays(site, fan, path=None, *, shade="level", dynamic_range_db=DEFAULT_DYNAMIC_RANGE_DB, eigenrays=None,
+              freq_hz=None, bottom_reflection=None, overwrite: bool = True):
     """Draw a fan from :func:`aculink.propagation.trace_rays` over the site.
 
     Parameters
@@ -46,15 +129,27 @@ def plot_rays(site, fan, path=None, *, colour_by="bounces", overwrite: bool = Tr
         The traced fan.
     path : str or Path, optional
         PNG file to write atomically; without it the figure is returned.
-    colour_by : {"bounces", "angle"}
-        Colour by boundary history (four Okabe-Ito classes) or by launch angle (cividis).
+    shade : {"level", "angle", "boundaries"}
+        What the shading shows: level relative to the strongest ray at the same range (dB, cividis),
+        launch angle (cividis), or reflections met so far (viridis). See :data:`SHADES`.
+    dynamic_range_db : float
+        With ``shade="level"``, stretches of ray more than this below the strongest are drawn faint.
+    eigenrays : xarray.Dataset, optional
+        A second fan (the eigenrays' launch angles, traced to the receiver range) drawn on top.
+    freq_hz : float, optional
+        Frequency of the absorption and surface loss in the levels (default the modem carrier).
+    bottom_reflection : callable, optional
+        The seabed reflection override the fan was traced with.
     overwrite : bool
         When False and ``path`` exists, raise :class:`~aculink.errors.AculinkError`.
     """
     import matplotlib.pyplot as plt
+    from matplotlib import patheffects
 
-    from aculink.errors import AculinkError
+    from aculink.errors import AculinkError, closest
 
+    if shade not in SHADES:
+        raise AculinkError(f"shade = {shade!r}: choose one of {', '.join(SHADES)}{closest(str(shade), SHADES)}")
     if path is not None and not overwrite:
         from pathlib import Path
 
@@ -76,41 +171,55 @@ def plot_rays(site, fan, path=None, *, colour_by="bounces", overwrite: bool = Tr
     ax_c.set_title("Profile", loc="left", fontsize=9)
     draw_section(ax_s, site, end_m)
 
-    r = fan.range_m.values / 1e3
-    d = fan.depth_m.values
-    segs = [np.column_stack([ri[np.isfinite(ri)], di[np.isfinite(ri)]]) for ri, di in zip(r, d)]
-    n = len(segs)
-    lw = 0.9 if n <= 40 else 0.55 if n <= 150 else 0.3
-    alpha = 0.9 if n <= 40 else 0.6 if n <= 150 else 0.4
-    if colour_by == "angle":
-        norm = plt.Normalize(float(fan.launch_angle_deg.min()), float(fan.launch_angle_deg.max()))
-        lc = LineCollection(segs, cmap="cividis", norm=norm, linewidths=lw, alpha=alpha, zorder=2)
-        lc.set_array(fan.launch_angle_deg.values)
-        ax_s.add_collection(lc)
-        fig.colorbar(lc, ax=ax_s, label="launch angle (deg below horizontal)", shrink=0.85, pad=0.01)
-        handles = []
+    values = _ray_values(site, fan, shade, freq_hz, bottom_reflection)
+    segs, vals = [], []
+    for ri, di, vi in zip(fan.range_m.values / 1e3, fan.depth_m.values, values):
+        s, v = ray_segments(ri, di, vi)
+        segs.append(s)
+        vals.append(v)
+    segs = np.concatenate(segs) if segs else np.zeros((0, 2, 2))
+    vals = np.concatenate(vals) if vals else np.zeros(0)
+    n = fan.sizes["ray"]
+    lw = 0.9 if n <= 40 else 0.6 if n <= 150 else 0.35
+    if shade == "level":
+        dyn = float(dynamic_range_db)
+        faint = ~(vals >= -dyn)
+        ax_s.add_collection(LineCollection(segs[faint], colors=_FAINT, linewidths=0.5 * lw, alpha=0.6, zorder=1))
+        segs, vals = segs[~faint], vals[~faint]
+        norm, cmap, extend = plt.Normalize(-dyn, 0.0), FIELD_CMAP, "min"
+    elif shade == "angle":
+        a = fan.launch_angle_deg.values
+        norm, cmap, extend = plt.Normalize(float(a.min()), float(a.max()) + (a.min() == a.max())), FIELD_CMAP, "neither"
     else:
-        cls = _history_class(fan.surface_bounces.values, fan.bottom_bounces.values)
-        # the rays that met both boundaries go underneath, the rarer classes on top
-        for k in (3, 2, 1, 0):
-            pick = [seg for seg, kk in zip(segs, cls) if kk == k]
-            if pick:
-                ax_s.add_collection(LineCollection(pick, colors=HISTORY_CLASSES[k][1], linewidths=lw, alpha=alpha,
-                                                   zorder=2))
-        handles = [Line2D([], [], color=col, lw=1.6, label=f"{name} ({int(np.sum(cls == k))})")
-                   for k, (name, col) in enumerate(HISTORY_CLASSES) if np.any(cls == k)]
+        top = int(np.nanmax(vals)) if vals.size else 0
+        cmap = plt.get_cmap(COUNT_CMAP, top + 1)
+        norm, extend = plt.Normalize(-0.5, top + 0.5), "neither"
+    lc = LineCollection(segs, cmap=cmap, norm=norm, linewidths=lw, zorder=2)
+    lc.set_array(vals)
+    ax_s.add_collection(lc)
+    bar = fig.colorbar(lc, ax=ax_s, label=SHADES[shade], shrink=0.85, pad=0.01, extend=extend)
+    if shade == "boundaries":
+        bar.locator = MaxNLocator(integer=True)
+        bar.update_ticks()
+
+    handles = []
+    if shade == "level":
+        handles.append(Line2D([], [], color=_FAINT, lw=1.2, label=f"more than {dyn:g} dB below"))
+    if eigenrays is not None and eigenrays.sizes["ray"]:
+        halo = [patheffects.Stroke(linewidth=2.2, foreground="white"), patheffects.Normal()]
+        for ri, di in zip(eigenrays.range_m.values / 1e3, eigenrays.depth_m.values):
+            ok = np.isfinite(ri)
+            ax_s.plot(ri[ok], di[ok], color=EIGENRAY_COLOUR, lw=0.9, zorder=5, path_effects=halo)
+        handles.append(Line2D([], [], color=EIGENRAY_COLOUR, lw=0.9, path_effects=halo,
+                              label=f"eigenrays to the receiver ({eigenrays.sizes['ray']})"))
     zs = float(fan.attrs["source_depth_m"])
     rx = site.receiver
-    ax_s.plot(0.0, zs, "*", ms=13, color=PALETTE[4], mec="black", mew=0.5, clip_on=False, zorder=6)
-    handles.append(Line2D([], [], marker="*", ms=10, color=PALETTE[4], mec="black", mew=0.5, ls="none",
-                          label=f"source {zs:g} m"))
-    if rx.range_m <= end_m:
-        ax_s.plot(rx.range_m / 1e3, rx.depth_m, "v", ms=8, color=PALETTE[3], mec="black", mew=0.5, zorder=6,
-                  clip_on=False)
-        handles.append(Line2D([], [], marker="v", ms=8, color=PALETTE[3], mec="black", mew=0.5, ls="none",
-                              label=f"receiver {rx.range_m / 1e3:g} km, {rx.depth_m:g} m"))
+    show_rx = rx.range_m <= end_m
+    src_label, rx_label = equipment_labels(zs, rx.range_m, rx.depth_m)
+    handles += mark_equipment(ax_s, (0.0, zs), (rx.range_m / 1e3, rx.depth_m) if show_rx else None,
+                              source_label=src_label, receiver_label=rx_label if show_rx else None)
     handles.append(Line2D([], [], color=SEABED_COLOUR, lw=6, label=site.seabed.sediment or "seabed"))
-    fig.legend(handles=handles, loc="outside lower center", ncol=min(len(handles), 6), fontsize=7.5)
+    fig.legend(handles=handles, loc="outside lower center", ncol=min(len(handles), 5), fontsize=7.5)
     angles = fan.launch_angle_deg.values
     detail = geometry_text(zs, rx.range_m, rx.depth_m) + f"; {n} rays, {angles.min():g} to {angles.max():g} deg"
     fig.suptitle(site_title(site, detail), fontweight="bold", fontsize=10.5)

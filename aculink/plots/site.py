@@ -5,7 +5,8 @@ from __future__ import annotations
 import numpy as np
 from matplotlib.ticker import MaxNLocator
 
-from aculink.plots.style import PALETTE, SEABED_COLOUR, WATER_COLOUR, figure, geometry_text, save, site_title, styled
+from aculink.plots.style import (PALETTE, SEABED_COLOUR, WATER_COLOUR, equipment_labels, figure, geometry_text,
+                                 mark_equipment, save, site_title, styled)
 
 __all__ = ["plot_site"]
 
@@ -68,9 +69,8 @@ def plot_site(site, path=None, *, overwrite: bool = True):
     for key, label, colour in marks:
         if feats[key] is not None:
             ax_c.axhline(feats[key], color=colour, ls="--", lw=1.0, label=f"{label} {feats[key]:.0f} m")
-    for depth, marker, colour in ((src.depth_m, "*", PALETTE[1]), (rx.depth_m, "v", PALETTE[7])):
-        ax_c.plot(float(profile.speed(depth)), depth, marker, ms=9 if marker == "*" else 7, color=colour,
-                  ls="none")
+    mark_equipment(ax_c, (float(profile.speed(src.depth_m)), src.depth_m),
+                   (float(profile.speed(rx.depth_m)), rx.depth_m))
     ax_c.xaxis.set_major_locator(MaxNLocator(4))
     ax_c.set_title(f"Profile: {feats['regime']}", loc="left", fontsize=9)
     ax_c.set_xlabel("sound speed (m/s)")
@@ -101,10 +101,9 @@ def plot_site(site, path=None, *, overwrite: bool = True):
     if bed.range_m.size > 1:
         ax_s.plot(bed.range_m[bed.range_m <= end_m] / 1e3, bed.depth_m[bed.range_m <= end_m], "s", ms=3,
                   color="#6B4F2A", label="seabed points")
-    ax_s.plot(0.0, src.depth_m, "*", ms=13, color=PALETTE[1], label=f"source {src.depth_m:g} m",
-              clip_on=False, zorder=5)
-    ax_s.plot(rx.range_m / 1e3, rx.depth_m, "v", ms=9, color=PALETTE[7],
-              label=f"receiver {rx.range_m / 1e3:g} km, {rx.depth_m:g} m", clip_on=False, zorder=5)
+    src_label, rx_label = equipment_labels(src.depth_m, rx.range_m, rx.depth_m)
+    equipment = mark_equipment(ax_s, (0.0, src.depth_m), (rx.range_m / 1e3, rx.depth_m), source_label=src_label,
+                               receiver_label=rx_label)
     ax_s.set_xlim(0.0, end_m / 1e3)
     ax_s.set_ylim(floor, 0.0)
     ax_s.set_xlabel("range (km)")
@@ -113,6 +112,8 @@ def plot_site(site, path=None, *, overwrite: bool = True):
         h, lab = ax.get_legend_handles_labels()
         handles += h
         labels += lab
+    handles += equipment
+    labels += [m.get_label() for m in equipment]
     fig.legend(handles, labels, loc="outside lower center", ncol=min(len(labels), 5), fontsize=7.5)
     ax_s.grid(True, alpha=0.5)
 

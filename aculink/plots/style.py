@@ -21,6 +21,10 @@ PALETTE = ("#0072B2", "#D55E00", "#009E73", "#CC79A7", "#E69F00", "#56B4E9", "#F
 FIELD_CMAP = "cividis"
 RATE_CMAP = "viridis"
 WATER_COLOUR = "#DCEBF5"
+#: The source and the receiver look the same in every picture (Okabe-Ito vermillion and reddish purple,
+#: black edge: visible on the water, the seabed and on cividis/viridis shading alike).
+SOURCE_MARK = {"marker": "*", "ms": 13, "color": "#D55E00", "mec": "black", "mew": 0.6, "ls": "none"}
+RECEIVER_MARK = {"marker": "v", "ms": 9, "color": "#CC79A7", "mec": "black", "mew": 0.6, "ls": "none"}
 SEABED_COLOUR = "#B89B72"
 
 _RC = {
@@ -80,6 +84,31 @@ def geometry_text(source_depth_m=None, range_m=None, receiver_depth_m=None) -> s
     elif range_m is not None:
         parts.append(f"range {range_m / 1000:g} km")
     return ", ".join(parts)
+
+
+def mark_equipment(ax, source, receiver=None, *, source_label=None, receiver_label=None):
+    """Draw the source and (when given) the receiver at ``(x, depth)`` in the axis' units.
+
+    Returns legend handles for the labels given, drawn with the same marks.
+    """
+    from matplotlib.lines import Line2D
+
+    handles = []
+    for where, mark, label in ((source, SOURCE_MARK, source_label), (receiver, RECEIVER_MARK, receiver_label)):
+        if where is None:
+            continue
+        ax.plot(where[0], where[1], clip_on=False, zorder=7, **mark)
+        if label:
+            handles.append(Line2D([], [], label=label, **{**mark, "ms": mark["ms"] - 2}))
+    return handles
+
+
+def equipment_labels(source_depth_m, receiver_range_m=None, receiver_depth_m=None):
+    """The legend words for the source and the receiver, the same in every picture."""
+    src = f"source {source_depth_m:g} m deep"
+    if receiver_range_m is None:
+        return src, None
+    return src, f"receiver at {receiver_range_m / 1000:g} km, {receiver_depth_m:g} m deep"
 
 
 def save(fig, path) -> str:

@@ -28,7 +28,7 @@ so the pressure relative to 1 m from the source is |A| = sqrt(c cos(theta0) / (c
 
 The integrator is the classical fourth-order Runge-Kutta method with a fixed arc-length step
 ``ds``. The sound-speed profile is C1 (PCHIP), so RK4 keeps travel-time errors near a microsecond at
-10 km with 5 m steps (the measured figures are in shared/PERFORMANCE.md and the benchmark).
+10 km with 5 m steps (the measured figures are in tests/benchmarks/bench_rays.py).
 Every step also stays inside one cubic piece of the profile: it is shortened to end on the next
 profile knot (predicted from the quadratic Taylor expansion of z(s)), because d2c/dz2 of the C1
 profile jumps at knots and a step straddling one loses RK4's order (measured: 15 us instead of 0.02 us
@@ -65,16 +65,40 @@ R. I. Leine and H. Nijmeijer, Dynamics and Bifurcations of Non-Smooth Mechanical
 """
 
 import math
+from collections import namedtuple
 
 import numba as nb
 import numpy as np
 
 from aculink.site._profile_kernels import evaluate, locate
 
-#: Columns of a crossing record (the ray state where it crosses a receiver range).
+#: Columns of a crossing record (the ray state where it crosses a receiver range): depth, travel
+#: time, slowness components, sound speed, launch-angle derivatives (dx, dz, dxi, dzeta), arc length,
+#: surface / seabed bounces, caustics, seabed reflection product (re, im), sum of sin^2 of the surface
+#: grazing angles, absorption (dB, first frequency of the medium), orientation (+-1, flips at each
+#: reflection), travel-time derivative.
 R_Z, R_T, R_XI, R_ZETA, R_C, R_DX, R_DZ, R_DXI, R_DZETA, R_S = 0, 1, 2, 3, 4, 5, 6, 7, 8, 9
 R_NS, R_NB, R_NC, R_BRE, R_BIM, R_SIN2, R_ABS, R_ORIENT, R_DT = 10, 11, 12, 13, 14, 15, 16, 17, 18
 N_RECORD = 19
+#: Information columns per traced ray (``info`` of the fan drivers).
+I_POINTS, I_STEPS, I_END, I_X_END, I_NS, I_NB, I_NC = 0, 1, 2, 3, 4, 5, 6
+N_INFO = 7
+
+#: The medium as the kernels read it (a namedtuple of arrays and numbers; numba passes it whole).
+#: ``ab_db`` is (n_freq, n_bins): absorption in dB/m per depth bin for each frequency; the loss at
+#: frequency m > 0 goes to record column :func:`abs_column` (m).
+KernelMedium = namedtuple("KernelMedium", ["knots", "coef", "bed_r", "bed_z", "bed_slope", "bt_step", "bt_re",
+                                           "bt_im", "ab_dz", "ab_db", "ds", "floor_mag"])
+
+
+def record_width(n_freq):
+    """Columns of a crossing record for a medium with ``n_freq`` absorption frequencies."""
+    return N_RECORD + max(n_freq, 1) - 1
+
+
+def abs_column(m):
+    """Record column of the absorption (dB) at the medium's frequency ``m``."""
+    return R_ABS if m == 0 else N_RECORD + m - 1
 
 #: Termination codes (also written as CF flag values by the friendly API).
 END_RANGE = 0  # reached the maximum range
@@ -191,27 +215,38 @@ def _event_rate(kind, z, zeta, xi, bslope, knots, coef, hint):
 
 
 @nb.njit(cache=True, error_model="numpy")
-def trace_ray(theta0, zs, knots, coef, bed_r, bed_z, bed_slope, bt_step, bt_re, bt_im,
-              ab_dz, ab_db, ds, r_max, max_steps, floor_mag, rec_r, rec, px, pz, pt, pa, bins):
+def trace_ray(theta0, zs, med, r_max, max_steps, rec_r, rec, px, pz, pt, pa):
     """Trace one ray from range 0, depth ``zs``, launch angle ``theta0`` (rad, positive down).
 
     Parameters
     ----------
-    knots, coef : profile pieces (see :mod:`aculink.site._profile_kernels`).
-    bed_r, bed_z, bed_slope : seabed vertices (m) and the slope of each segment (len(bed_r) - 1).
-    bt_step, bt_re, bt_im : seabed reflection coefficient tabulated on grazing angles 0, bt_step, ...
-    ab_dz, ab_db : absorption (dB/m) tabulated on depth bins of width ab_dz from the surface.
-    ds : arc-length step, m. r_max : stop range, m. max_steps : step budget.
-    floor_mag : the ray stops when the product of seabed |R| falls below this.
+    med : KernelMedium
+        Profile pieces (``knots``, ``coef``, see :mod:`aculink.site._profile_kernels`); seabed
+        vertices ``bed_r``, ``bed_z`` (m) and segment slopes ``bed_slope``; the seabed reflection
+        coefficient ``bt_re``, ``bt_im`` tabulated on grazing angles 0, ``bt_step``, ...; absorption
+        ``ab_db`` (n_freq, bins) in dB/m on depth bins of width ``ab_dz``; the arc-length step ``ds``
+        (m); ``floor_mag``: the ray stops when the product of seabed |R| falls below it.
+    r_max : stop range, m. max_steps : step budget.
     rec_r : increasing receiver ranges; ``rec[j, :]`` receives the crossing record at rec_r[j]
-        (left as NaN where the ray does not get there).
+        (left as NaN where the ray does not get there); record columns ``R_*`` and :func:`abs_column`.
     px, pz, pt, pa : path buffers (range, depth, time, angle in rad); length 0 records no path.
-    bins : path length per absorption depth bin (accumulated); length 0 skips it.
 
     Returns
     -------
     n_points, n_steps, termination, x_end, n_surface, n_bottom, n_caustic
     """
+    knots = med.knots
+    coef = med.coef
+    bed_r = med.bed_r
+    bed_z = med.bed_z
+    bed_slope = med.bed_slope
+    bt_step = med.bt_step
+    bt_re = med.bt_re
+    bt_im = med.bt_im
+    ab_dz = med.ab_dz
+    ab_db = med.ab_db
+    ds = med.ds
+    floor_mag = med.floor_mag
     c0, _, _, hint = evaluate(zs, knots, coef, 0)
     cos0 = math.cos(theta0)
     sin0 = math.sin(theta0)
@@ -229,7 +264,8 @@ def trace_ray(theta0, zs, knots, coef, bed_r, bed_z, bed_slope, bt_step, bt_re, 
     bre = 1.0
     bim = 0.0
     sin2 = 0.0
-    absdb = 0.0
+    n_f = ab_db.shape[0]
+    absdb = np.zeros(n_f)
     n_s = 0
     n_b = 0
     n_c = 0
@@ -242,8 +278,7 @@ def trace_ray(theta0, zs, knots, coef, bed_r, bed_z, bed_slope, bt_step, bt_re, 
     while jrec < n_rec and rec_r[jrec] <= 0.0:
         jrec += 1
     cap = px.shape[0]
-    n_bins = bins.shape[0]
-    n_ab = ab_db.shape[0]
+    n_ab = ab_db.shape[1]
     n_bt = bt_re.shape[0]
     n_knots = knots.shape[0]
     z_knot_max = 0.0
@@ -375,9 +410,8 @@ def trace_ray(theta0, zs, knots, coef, bed_r, bed_z, bed_slope, bt_step, bt_re, 
                 ib = 0
             if ib >= n_ab:
                 ib = n_ab - 1
-            absdb += ab_db[ib] * h
-            if n_bins > 0:
-                bins[ib] += h
+            for m in range(n_f):
+                absdb[m] += ab_db[m, ib] * h
         x = x1
         z = z1
         zeta = e1
@@ -475,7 +509,9 @@ def trace_ray(theta0, zs, knots, coef, bed_r, bed_z, bed_slope, bt_step, bt_re, 
                 row[R_BRE] = bre
                 row[R_BIM] = bim
                 row[R_SIN2] = sin2
-                row[R_ABS] = absdb
+                row[R_ABS] = absdb[0]
+                for m in range(1, n_f):
+                    row[N_RECORD + m - 1] = absdb[m]
                 row[R_ORIENT] = orient
                 row[R_DT] = dt
                 jrec += 1
@@ -495,44 +531,35 @@ def trace_ray(theta0, zs, knots, coef, bed_r, bed_z, bed_slope, bt_step, bt_re, 
 
 
 @nb.njit(cache=True, inline="always", error_model="numpy")
-def _trace_into(i, thetas, zs, knots, coef, bed_r, bed_z, bed_slope, bt_step, bt_re, bt_im, ab_dz, ab_db,
-                ds, r_max, max_steps, floor_mag, rec_r, rec, px, pz, pt, pa, info, nobins):
+def _trace_into(i, thetas, zs, med, r_max, max_steps, rec_r, rec, px, pz, pt, pa, info):
     """Trace ray ``i`` of a fan into its rows of the output buffers (shared by both drivers)."""
-    npts, nst, term, xe, ns, nbt, nc = trace_ray(thetas[i], zs, knots, coef, bed_r, bed_z, bed_slope,
-                                                 bt_step, bt_re, bt_im, ab_dz, ab_db, ds, r_max,
-                                                 max_steps, floor_mag, rec_r, rec[i], px[i], pz[i],
-                                                 pt[i], pa[i], nobins)
-    info[i, 0] = npts
-    info[i, 1] = nst
-    info[i, 2] = term
-    info[i, 3] = xe
-    info[i, 4] = ns
-    info[i, 5] = nbt
-    info[i, 6] = nc
+    npts, nst, term, xe, ns, nbt, nc = trace_ray(thetas[i], zs, med, r_max, max_steps, rec_r, rec[i], px[i],
+                                                 pz[i], pt[i], pa[i])
+    info[i, I_POINTS] = npts
+    info[i, I_STEPS] = nst
+    info[i, I_END] = term
+    info[i, I_X_END] = xe
+    info[i, I_NS] = ns
+    info[i, I_NB] = nbt
+    info[i, I_NC] = nc
 
 
 @nb.njit(cache=True, parallel=True, error_model="numpy")
-def trace_fan(thetas, zs, knots, coef, bed_r, bed_z, bed_slope, bt_step, bt_re, bt_im, ab_dz, ab_db,
-              ds, r_max, max_steps, floor_mag, rec_r, rec, px, pz, pt, pa, info):
+def trace_fan(thetas, zs, med, r_max, max_steps, rec_r, rec, px, pz, pt, pa, info):
     """Trace every launch angle in ``thetas`` (parallel over rays).
 
-    ``rec`` is (n_rays, n_ranges, N_RECORD), filled with NaN by the caller; ``px`` .. ``pa`` are
-    (n_rays, n_points) path buffers (n_points may be 0); ``info[i]`` receives
+    ``rec`` is (n_rays, n_ranges, record width), filled with NaN by the caller; ``px`` .. ``pa`` are
+    (n_rays, n_points) path buffers (n_points may be 0); ``info[i]`` receives the ``I_*`` columns
     (n_points, n_steps, termination, x_end, n_surface, n_bottom, n_caustic).
     """
     n = thetas.shape[0]
-    nobins = np.empty(0)
     for i in nb.prange(n):
-        _trace_into(i, thetas, zs, knots, coef, bed_r, bed_z, bed_slope, bt_step, bt_re, bt_im, ab_dz, ab_db,
-                    ds, r_max, max_steps, floor_mag, rec_r, rec, px, pz, pt, pa, info, nobins)
+        _trace_into(i, thetas, zs, med, r_max, max_steps, rec_r, rec, px, pz, pt, pa, info)
 
 
 @nb.njit(cache=True, error_model="numpy")
-def trace_fan_serial(thetas, zs, knots, coef, bed_r, bed_z, bed_slope, bt_step, bt_re, bt_im, ab_dz, ab_db,
-                     ds, r_max, max_steps, floor_mag, rec_r, rec, px, pz, pt, pa, info):
+def trace_fan_serial(thetas, zs, med, r_max, max_steps, rec_r, rec, px, pz, pt, pa, info):
     """Serial twin of :func:`trace_fan` (one core; for single rays and timing)."""
     n = thetas.shape[0]
-    nobins = np.empty(0)
     for i in range(n):
-        _trace_into(i, thetas, zs, knots, coef, bed_r, bed_z, bed_slope, bt_step, bt_re, bt_im, ab_dz, ab_db,
-                    ds, r_max, max_steps, floor_mag, rec_r, rec, px, pz, pt, pa, info, nobins)
+        _trace_into(i, thetas, zs, med, r_max, max_steps, rec_r, rec, px, pz, pt, pa, info)

@@ -1,118 +1,222 @@
-"""Numba kernels of the eigenray search: brackets from a fan, refinement by re-shooting.
+"""Numba kernels of the eigenray search: arrivals as beam sums over a fan, and re-shooting.
 
-A fan traced once records every ray's state where it crosses each receiver range
-(:data:`aculink.propagation._kernels.N_RECORD` columns). For each receiver (range j, depth k):
+A fan traced once records every ray's state where it crosses each receiver range (record columns
+``R_*`` of :mod:`aculink.propagation._kernels`). For each receiver (range j, depth k):
 
-* **Straddles.** Adjacent rays i, i+1 with the same history (surface bounces, seabed bounces,
-  caustics) whose depths at range j lie on either side of the receiver depth bracket one eigenray.
-* **Branch edges.** Where a ray's neighbour has another history (or did not get there), the eigenray
-  of the ray's branch may lie between the two: a Newton prediction from the ray,
-  theta* = theta_i + (z_r - z_i) / (dz/dtheta0), that falls between them is a candidate too.
+* **Arrivals from the fan** (:func:`cluster_arrivals`). Every ray carries a Gaussian beam whose
+  vertical width at the receiver range is its ray tube's, W = |dz/dtheta0| dtheta0, floored at a
+  caller-given width near caustics (Jensen et al. 2011, sect. 3.4, "geometric" beams; Cerveny 2001,
+  ch. 5). The rays whose beams reach the receiver (within :data:`BEAM_REACH` widths) form
+  *clusters*: runs of adjacent rays of the fan (not split by the caustic count, so the two branches of
+  a fold merge into one finite arrival, nor where a turning point grazes a boundary and the bounce
+  count changes with a continuous wavefront; split where a reflection flips the vertical slowness).
+  Each cluster is one arrival: its complex amplitude is the coherent beam sum of its rays at each
+  frequency, with every ray's own travel time moved to the receiver depth to second order
+  (T = t + zeta dz + (1/2) (d zeta/dz) dz^2); its delay is that of the eigenrays it contains
+  (adjacent rays of one branch on either side of the receiver), or the beam-weighted travel time
+  where it has none (a shadow-side arrival beside a caustic).
+* **Re-shooting** (:func:`refine_one`, :func:`refine_all`): Newton steps on the launch angle with
+  the dynamic-ray derivative dz/dtheta0, kept inside the bracket (bisection when a Newton step would
+  leave it), until the depth miss at the receiver range is below the tolerance. The friendly API
+  uses it only where a bracket is too wide to interpolate within the tolerance; it is also the slow,
+  obviously correct twin the interpolation is tested against.
 
-Each candidate is refined by re-shooting single rays to range j only: Newton steps on the launch
-angle using the dynamic-ray derivative dz/dtheta0, kept inside the bracket (bisection when a Newton
-step would leave it), until the depth miss at the receiver range is below the tolerance. A shot of
-another history (or one that stops short) shrinks the bracket from the far side; a candidate whose
-bracket closes without convergence is dropped.
+References
+----------
+F. B. Jensen, W. A. Kuperman, M. B. Porter and H. Schmidt, Computational Ocean Acoustics, 2nd ed.
+(Springer, 2011), sect. 3.3 (ray amplitudes) and 3.4 (Gaussian beams).
+V. Cerveny, Seismic Ray Theory (Cambridge University Press, 2001), ch. 5 (Gaussian beam summation).
 """
+
+import math
 
 import numba as nb
 import numpy as np
 
 from aculink.propagation import _kernels as _k
 
-#: Refinement shots before a candidate is given up (straddles, branch edges).
+#: Refinement shots before a candidate is given up.
 MAX_ITERATIONS = 40
-EDGE_ITERATIONS = 16
-#: Branch-edge predictions are followed this many gap widths from the edge ray.
-EDGE_REACH = 4.0
+#: A ray's beam reaches receivers this many widths away.
+BEAM_REACH = 4.0
+#: Adjacent rays of different histories belong to one arrival when their vertical slownesses differ
+#: by less than this fraction of the sum of their magnitudes (no reflection between them).
+CONTINUITY = 0.5
 
-C_RANGE, C_DEPTH, C_LO, C_HI, C_KIND, C_FROM = 0, 1, 2, 3, 4, 5
-N_CANDIDATE = 6
-KIND_STRADDLE, KIND_EDGE_UP, KIND_EDGE_DOWN = 0, 1, 2
+#: Integer columns of a cluster (one arrival): range index, depth index, surface bounces, seabed
+#: bounces, first and last ray, the ray with the largest contribution, the lower ray of the strongest
+#: bracket (-1: none), and the number of brackets.
+Q_RANGE, Q_DEPTH, Q_NS, Q_NB, Q_FIRST, Q_LAST, Q_PRINCIPAL, Q_BRACKET, Q_N_BRACKETS = 0, 1, 2, 3, 4, 5, 6, 7, 8
+N_CLUSTER_INT = 9
+
+_INV_SQRT_2PI = 1.0 / math.sqrt(2.0 * math.pi)
 
 
 @nb.njit(cache=True, inline="always", error_model="numpy")
 def dz_dtheta(row):
-    """dz/dtheta0 at fixed range from a crossing record (m/rad)."""
+    """dz/dtheta0 at fixed range from a crossing record (m/rad): the launch-angle derivative moved
+    from fixed arc length to fixed range with dx/ds = c xi, dz/ds = c zeta."""
     return row[_k.R_DZ] - row[_k.R_ZETA] / row[_k.R_XI] * row[_k.R_DX]
 
 
 @nb.njit(cache=True, inline="always", error_model="numpy")
-def same_history(a, b):
-    return a[_k.R_NS] == b[_k.R_NS] and a[_k.R_NB] == b[_k.R_NB] and a[_k.R_NC] == b[_k.R_NC]
+def _scan(j, k, z, t, zeta, kappa, wz, amp, fac_re, fac_im, ns, nb_, nc, zr, omegas, fill, base, out_int,
+          out_delay, out_re, out_im, acc_re, acc_im):
+    """Walk the fan at receiver (j, k); count its clusters, and with ``fill`` write them from row
+    ``base``. Returns the number of clusters."""
+    n_rays = z.shape[0]
+    n_f = omegas.shape[0]
+    count = 0
+    in_run = False
+    t_ref = 0.0
+    best = -1.0
+    principal = -1
+    first = -1
+    last = -1
+    w_lin = 0.0
+    t_lin = 0.0
+    w_br = 0.0
+    t_br = 0.0
+    br_best = -1.0
+    br_lo = -1
+    n_br = 0
+    for i in range(n_rays + 1):
+        member = False
+        if i < n_rays:
+            zi = z[i, j]
+            if not np.isnan(zi):
+                d = zr - zi
+                w = wz[i, j]
+                member = abs(d) <= BEAM_REACH * w
+        if in_run and member and not (ns[i, j] == ns[i - 1, j] and nb_[i, j] == nb_[i - 1, j]):
+            # another history: the same branch if the wavefront is continuous across the change (a
+            # turning point grazing a boundary), a new arrival if the slowness flips (a reflection)
+            za = zeta[i - 1, j]
+            zb = zeta[i, j]
+            member_run = abs(zb - za) < CONTINUITY * (abs(za) + abs(zb))
+        else:
+            member_run = True
+        if in_run and (not member or not member_run):
+            # close the run: one arrival
+            if fill:
+                row = base + count - 1
+                out_int[row, Q_RANGE] = j
+                out_int[row, Q_DEPTH] = k
+                label = br_lo if br_lo >= 0 else principal
+                out_int[row, Q_NS] = int(ns[label, j])
+                out_int[row, Q_NB] = int(nb_[label, j])
+                out_int[row, Q_FIRST] = first
+                out_int[row, Q_LAST] = last
+                out_int[row, Q_PRINCIPAL] = principal
+                out_int[row, Q_BRACKET] = br_lo
+                out_int[row, Q_N_BRACKETS] = n_br
+                tau = t_br / w_br if n_br > 0 and w_br > 0.0 else (t_lin / w_lin if w_lin > 0.0 else t_ref)
+                out_delay[row] = tau
+                for m in range(n_f):
+                    ph = omegas[m] * (tau - t_ref)
+                    cr = math.cos(ph)
+                    ci = math.sin(ph)
+                    out_re[row, m] = acc_re[m] * cr - acc_im[m] * ci
+                    out_im[row, m] = acc_re[m] * ci + acc_im[m] * cr
+            in_run = False
+        if not member:
+            continue
+        if not in_run:
+            in_run = True
+            count += 1
+            first = i
+            best = -1.0
+            principal = i
+            w_lin = 0.0
+            t_lin = 0.0
+            w_br = 0.0
+            t_br = 0.0
+            br_best = -1.0
+            br_lo = -1
+            n_br = 0
+            if fill:
+                for m in range(n_f):
+                    acc_re[m] = 0.0
+                    acc_im[m] = 0.0
+        last = i
+        if not fill:
+            continue
+        d = zr - z[i, j]
+        w = wz[i, j]
+        zeta_i = zeta[i, j]
+        t_full = t[i, j] + zeta_i * d + 0.5 * kappa[i, j] * d * d
+        if first == i:
+            t_ref = t_full
+        g = amp[i, j] * math.exp(-0.5 * (d / w) ** 2) * _INV_SQRT_2PI / w
+        gr = g * fac_re[i, j]
+        gi = g * fac_im[i, j]
+        mag2 = gr * gr + gi * gi
+        if mag2 > best:
+            best = mag2
+            principal = i
+        w_lin += mag2
+        t_lin += mag2 * (t[i, j] + zeta_i * d)
+        for m in range(n_f):
+            ph = -omegas[m] * (t_full - t_ref)
+            cr = math.cos(ph)
+            ci = math.sin(ph)
+            acc_re[m] += gr * cr - gi * ci
+            acc_im[m] += gr * ci + gi * cr
+        # a bracket: this ray and the previous one, of one branch, on either side of the receiver
+        if i > first and nc[i - 1, j] == nc[i, j] and ns[i - 1, j] == ns[i, j] and nb_[i - 1, j] == nb_[i, j]:
+            d0 = zr - z[i - 1, j]
+            if d0 * d <= 0.0 and not (d0 == 0.0 and d == 0.0):
+                n_br += 1
+                near = i if abs(d) <= abs(d0) else i - 1
+                dn = d if near == i else d0
+                tn = t[near, j] + zeta[near, j] * dn + 0.5 * kappa[near, j] * dn * dn
+                a = amp[near, j] * math.exp(-0.5 * (dn / wz[near, j]) ** 2) / wz[near, j]
+                wb = a * a * (fac_re[near, j] ** 2 + fac_im[near, j] ** 2)
+                w_br += wb
+                t_br += wb * tn
+                if wb > br_best:
+                    br_best = wb
+                    br_lo = i - 1
+    return count
 
 
-@nb.njit(cache=True, error_model="numpy")
-def find_brackets(rec, thetas, depths, out):
-    """Write candidates (range index, depth index, ray lo, ray hi, kind, ray used) into ``out``.
+@nb.njit(cache=True, parallel=True, error_model="numpy")
+def cluster_arrivals(z, t, zeta, kappa, wz, amp, fac_re, fac_im, ns, nb_, nc, depths, omegas, counts, offsets,
+                     fill, out_int, out_delay, out_re, out_im):
+    """Clusters (arrivals) of every receiver from a fan's per-ray arrays (rays, ranges).
 
-    Returns the number of candidates; when ``out`` is too small, only counts.
+    ``amp`` is the beam amplitude factor dtheta0 sqrt(c cos(theta0) |dz/dtheta0| / (c0 r cos(theta)))
+    (the integral of each normalised Gaussian over depth then reproduces the geometric amplitude),
+
+    ``fac`` the ray's complex seabed-reflection product times its caustic phase, ``kappa`` d zeta/dz at
+    fixed range, ``wz`` the vertical beam width. With ``fill`` False, writes the cluster count of every
+    receiver into ``counts`` (ranges, depths); with ``fill`` True, writes the clusters from row
+    ``offsets[j, k]``: integer columns ``Q_*``, delay (s), and the amplitude's real and imaginary
+    parts at each angular frequency in ``omegas``.
     """
-    n_rays = rec.shape[0]
-    n_ranges = rec.shape[1]
-    n_depths = depths.shape[0]
-    cap = out.shape[0]
-    n = 0
-    for j in range(n_ranges):
-        for i in range(n_rays - 1):
-            a = rec[i, j]
-            b = rec[i + 1, j]
-            ok_a = not np.isnan(a[_k.R_Z])
-            ok_b = not np.isnan(b[_k.R_Z])
-            if not (ok_a or ok_b):
-                continue
-            if ok_a and ok_b and same_history(a, b):
-                za = a[_k.R_Z]
-                zb = b[_k.R_Z]
-                for k in range(n_depths):
-                    fa = za - depths[k]
-                    fb = zb - depths[k]
-                    if fa * fb <= 0.0 and not (fa == 0.0 and fb == 0.0):
-                        if n < cap:
-                            out[n, C_RANGE] = j
-                            out[n, C_DEPTH] = k
-                            out[n, C_LO] = i
-                            out[n, C_HI] = i + 1
-                            out[n, C_KIND] = KIND_STRADDLE
-                            out[n, C_FROM] = i if abs(fa) <= abs(fb) else i + 1
-                        n += 1
-                continue
-            # different histories (or one missing): extrapolate each valid side into the gap
-            span = thetas[i + 1] - thetas[i]
-            for side in range(2):
-                row = a if side == 0 else b
-                if np.isnan(row[_k.R_Z]):
-                    continue
-                d = dz_dtheta(row)
-                if d == 0.0 or np.isnan(d):
-                    continue
-                for k in range(n_depths):
-                    step = (depths[k] - row[_k.R_Z]) / d
-                    # the branch may bend before it ends: look a few gap widths past the prediction
-                    inside = (0.0 < step < EDGE_REACH * span) if side == 0 else (-EDGE_REACH * span < step < 0.0)
-                    if inside:
-                        if n < cap:
-                            out[n, C_RANGE] = j
-                            out[n, C_DEPTH] = k
-                            out[n, C_LO] = i
-                            out[n, C_HI] = i + 1
-                            out[n, C_KIND] = KIND_EDGE_UP if side == 0 else KIND_EDGE_DOWN
-                            out[n, C_FROM] = i if side == 0 else i + 1
-                        n += 1
-    return n
+    n_r = z.shape[1]
+    n_z = depths.shape[0]
+    n_f = omegas.shape[0]
+    for j in nb.prange(n_r):
+        acc_re = np.zeros(n_f)
+        acc_im = np.zeros(n_f)
+        for k in range(n_z):
+            c = _scan(j, k, z, t, zeta, kappa, wz, amp, fac_re, fac_im, ns, nb_, nc, depths[k], omegas, fill,
+                      offsets[j, k], out_int, out_delay, out_re, out_im, acc_re, acc_im)
+            if not fill:
+                counts[j, k] = c
 
 
 @nb.njit(cache=True, error_model="numpy")
-def refine_one(theta_a, f_a, theta_b, kind, row0, zr, r_target, zs, knots, coef, bed_r, bed_z, bed_slope, bt_step,
-               bt_re, bt_im, ab_dz, ab_db, ds, max_steps, floor_mag, tol, rec_out, bins):
-    """Refine one eigenray; returns (converged, theta, iterations). ``rec_out`` is (1, N_RECORD).
+def refine_one(theta_a, f_a, theta_b, row0, zr, r_target, zs, med, max_steps, tol, rec_out):
+    """Refine one eigenray by re-shooting; returns (converged, theta, iterations).
 
-    ``theta_a`` is a ray of the wanted history with depth miss ``f_a`` (``row0`` its record);
-    ``theta_b`` the other end of the bracket: a ray of the same history with the opposite miss
-    (straddle) or a ray of another history (edge). Every shot of the wanted history with the
-    sign of ``f_a`` moves the ``a`` end, one with the other sign or another history moves ``b``;
-    Newton steps with dz/dtheta0 are taken when they stay inside the bracket, bisection otherwise.
+    ``rec_out`` is (1, record width). ``theta_a`` is a ray of the wanted history (surface bounces,
+    seabed bounces, caustics) with depth miss ``f_a`` (``row0`` its record); ``theta_b`` the other end
+    of the bracket, a ray of the same history with the opposite miss. Every shot of the wanted history
+    with the sign of ``f_a`` moves the ``a`` end, one with the other sign or another history moves
+    ``b``; Newton steps with dz/dtheta0 are taken when they stay inside the bracket, bisection
+    otherwise.
     """
     rec_r = np.empty(1)
     rec_r[0] = r_target
@@ -123,16 +227,12 @@ def refine_one(theta_a, f_a, theta_b, kind, row0, zr, r_target, zs, knots, coef,
     a = theta_a
     b = theta_b
     s_a = 1.0 if f_a > 0.0 else -1.0
-    limit = MAX_ITERATIONS if kind == KIND_STRADDLE else EDGE_ITERATIONS
     theta = theta_a + (zr - row0[_k.R_Z]) / dz_dtheta(row0)
-    for it in range(limit):
+    for it in range(MAX_ITERATIONS):
         if not (min(a, b) < theta < max(a, b)):
             theta = 0.5 * (a + b)
-        for m in range(bins.shape[0]):
-            bins[m] = 0.0
         rec_out[0, _k.R_Z] = np.nan
-        _k.trace_ray(theta, zs, knots, coef, bed_r, bed_z, bed_slope, bt_step, bt_re, bt_im, ab_dz, ab_db, ds,
-                     r_target, max_steps, floor_mag, rec_r, rec_out, nop, nop, nop, nop, bins)
+        _k.trace_ray(theta, zs, med, r_target, max_steps, rec_r, rec_out, nop, nop, nop, nop)
         row = rec_out[0]
         if np.isnan(row[_k.R_Z]) or row[_k.R_NS] != ns or row[_k.R_NB] != nb_ or row[_k.R_NC] != nc:
             b = theta
@@ -151,26 +251,15 @@ def refine_one(theta_a, f_a, theta_b, kind, row0, zr, r_target, zs, knots, coef,
             return False, theta, it + 1
         d = dz_dtheta(row)
         theta = theta - f / d if d != 0.0 else 0.5 * (a + b)
-    return False, theta, limit
+    return False, theta, MAX_ITERATIONS
 
 
 @nb.njit(cache=True, parallel=True, error_model="numpy")
-def refine_all(cand, thetas, rec, depths, ranges, zs, knots, coef, bed_r, bed_z, bed_slope, bt_step, bt_re,
-               bt_im, ab_dz, ab_db, ds, max_steps, floor_mag, tol, out_rec, out_bins, out_theta, out_ok):
-    """Refine every candidate in parallel; results in ``out_*`` (one row per candidate)."""
-    n = cand.shape[0]
+def refine_all(theta_a, f_a, theta_b, rows0, zr, r_target, zs, med, max_steps, tol, out_rec, out_theta, out_ok):
+    """:func:`refine_one` for every bracket (arrays of one entry per bracket), in parallel."""
+    n = theta_a.shape[0]
     for c in nb.prange(n):
-        j = int(cand[c, C_RANGE])
-        k = int(cand[c, C_DEPTH])
-        i_lo = int(cand[c, C_LO])
-        i_hi = int(cand[c, C_HI])
-        kind = int(cand[c, C_KIND])
-        i0 = int(cand[c, C_FROM])
-        i1 = i_hi if i0 == i_lo else i_lo
-        row0 = rec[i0, j]
-        zr = depths[k]
-        ok, th, _ = refine_one(thetas[i0], row0[_k.R_Z] - zr, thetas[i1], kind, row0, zr, ranges[j], zs, knots, coef,
-                               bed_r, bed_z, bed_slope, bt_step, bt_re, bt_im, ab_dz, ab_db, ds, max_steps,
-                               floor_mag, tol, out_rec[c:c + 1], out_bins[c])
+        ok, th, _ = refine_one(theta_a[c], f_a[c], theta_b[c], rows0[c], zr[c], r_target[c], zs, med, max_steps,
+                               tol, out_rec[c:c + 1])
         out_theta[c] = th
         out_ok[c] = ok

@@ -2,38 +2,57 @@
 
 How it works (kernels in :mod:`aculink.propagation._kernels_eigen`):
 
-1. One fan of rays (default: launch angles from -80 to 80 deg, spaced finely enough to put several
-   rays in every bounce branch at the longest range) is traced once for all receivers; each ray
-   records its state where it crosses every receiver range.
-2. Adjacent rays with the same history (surface bounces, seabed bounces, caustics) on either side of
-   a receiver depth bracket an eigenray; at branch edges, a Newton prediction from the last ray of the
-   branch is used.
-3. Candidates whose predicted level (from the bracketing ray) is more than the dynamic range plus
-   :data:`PRUNE_MARGIN_DB` below the strongest at that receiver are dropped before refinement.
-4. The rest are refined by re-shooting single rays to the receiver range (Newton on the launch angle
-   with the dynamic-ray derivative, safeguarded by bisection) until the depth miss is below
-   ``tolerance_m``. The delay is then moved to the receiver depth at the receiver range to second
-   order in the miss dz: tau = t + zeta dz + (1/2) (d zeta/dz) dz^2, with d zeta/dz at fixed range
-   from the dynamic-ray derivatives (the wavefront's curvature), so the residual is third order.
-5. Duplicates (same history, launch angles within the angular width of the tolerance) are merged;
-   arrivals more than ``dynamic_range_db`` below the strongest at every requested frequency are
-   dropped and counted.
+1. **Fan.** One fan of rays (default :func:`search_angles_deg`: launch angles from -89 to 89 deg,
+   spaced for a reference range that depends only on the site and the octave of the longest range
+   asked for, so a receiver's answer does not depend on the other receivers in the call) is traced
+   once for all receivers; each ray records its state where it crosses every receiver range.
+   Where adjacent rays reach a range with histories two or more bounces apart, or one branch's ray
+   tube is wider than :data:`TUBE_WIDTH_FRACTION` of the water depth, rays are added between them
+   (:func:`_refine_fan`).
+2. **Candidates** (:func:`_candidates`). Every ray carries a Gaussian beam of its own ray tube's width
+   (floored near caustics at :func:`beam_floor_m`); the rays whose beams reach a receiver, grouped
+   into runs of adjacent rays (split where a reflection flips the vertical slowness), are its arrivals. An
+   arrival's amplitude is the coherent beam sum of its rays (so it stays finite at caustics and
+   turning points, where the geometric amplitude sqrt(c cos(theta0) / (c0 r |q|)) diverges as q -> 0,
+   and the two rays of a fold merge into one arrival); far from caustics the sum reproduces the
+   geometric amplitude (Cerveny 2001, ch. 5; Jensen et al. 2011, sect. 3.4).
+3. **Prune** (:func:`_prune`). Arrivals predicted more than the dynamic range plus
+   :data:`PRUNE_MARGIN_DB` below the strongest at their receiver are dropped (and counted).
+4. **Refine** (:func:`_refine`). An arrival's eigenray comes from the fan without re-shooting: two
+   adjacent rays of one branch bracket the receiver depth; the delay is moved from the nearer ray to
+   the receiver depth at the receiver range to second order in the miss dz, tau = t + zeta dz +
+   (1/2) (d zeta/dz) dz^2, with d zeta/dz at fixed range from the dynamic-ray derivatives (the
+   wavefront's curvature), so the residual is third order; the launch angle is the Newton step
+   theta + dz / (dz/dtheta0), the arrival slowness zeta + (d zeta/dz) dz, and path length, surface
+   grazing sum and absorption are interpolated between the two rays. Where the Newton predictions
+   from the two rays disagree by more than ``tolerance_m`` of depth, the eigenray is re-shot
+   (Newton on the launch angle, safeguarded by bisection) instead. Arrivals without a bracket
+   (beside a caustic, on its shadow side) take the beam-weighted delay and the strongest ray's
+   angles.
+5. **Merge** (:func:`_merge`). The beam sum, the Eckart surface factor and the absorption make each
+   arrival's amplitude; arrivals more than ``dynamic_range_db`` below the strongest at every requested
+   frequency are dropped and counted. :func:`_pack` pads and sorts them by delay.
 
 Amplitudes are complex pressures relative to 1 m from the source, in aculink's exp(+j omega t)
 convention, with everything included::
 
-    A(f) = |A_spread| x exp(+j pi/2 n_caustics) x prod R_bottom x prod R_surface(f) x 10^(-a(f)/20)
+    A(f) = B(f) x prod R_surface(f) x 10^(-a(f)/20)
 
-|A_spread| = sqrt(c cos(theta0) / (c0 r |q|)) from dynamic ray tracing (Jensen et al. 2011, sect.
-3.3); R_bottom is the Rayleigh coefficient at each bounce's grazing angle; R_surface(f) the Eckart
-coherent coefficient, whose product over the bounces is (-1)^n exp(-2 k^2 sigma^2 sum sin^2 theta_i)
-(``surface_grazing_sin2_sum`` lets later stages recompute it across the band); a(f) is the
-Francois-Garrison absorption integrated along the path.
+B(f) is the beam sum of the arrival's rays, sum_i g_i prod R_bottom,i exp(+j pi/2 n_caustics,i)
+exp(-j omega (T_i - tau)) with g_i the ray's Gaussian weight at the receiver (geometric spreading
+included); R_bottom is the Rayleigh coefficient at each bounce's grazing angle; R_surface(f) the
+Eckart coherent coefficient, whose product over the bounces is (-1)^n exp(-2 k^2 sigma^2 sum
+sin^2 theta_i) (``surface_grazing_sin2_sum`` lets later stages recompute it across the band); a(f)
+is the Francois-Garrison absorption integrated along the path (accumulated by the kernel at every
+requested frequency).
 
 References
 ----------
 F. B. Jensen, W. A. Kuperman, M. B. Porter and H. Schmidt, Computational Ocean Acoustics, 2nd ed.
-(Springer, 2011), ch. 3 (eigenrays, ray amplitude, caustic phase).
+(Springer, 2011), ch. 3 (eigenrays, ray amplitude, caustic phase, Gaussian beams).
+V. Cerveny, Seismic Ray Theory (Cambridge University Press, 2001), ch. 5 (Gaussian beam summation).
+Yu. A. Kravtsov and Yu. I. Orlov, Caustics, Catastrophes and Wave Fields (Springer, 1993), ch. 2
+(the width of a fold caustic's Airy zone, of order (lambda^2 L)^(1/3), the floor not chosen).
 C. Eckart, J. Acoust. Soc. Am. 25, 566-570 (1953) (coherent surface reflection).
 R. E. Francois and G. R. Garrison, J. Acoust. Soc. Am. 72(3), 896-907 and 72(6), 1879-1890 (1982).
 """
@@ -47,52 +66,68 @@ import numpy as np
 from aculink.errors import AculinkError, check_range
 from aculink.propagation import _kernels as _k
 from aculink.propagation import _kernels_eigen as _ke
-from aculink.propagation.rays import (absorption_table_db_per_m, check_angles, check_source_depth, depth_bin_edges,
-                                      prepare_medium, run_fan, step_budget)
+from aculink.propagation.rays import check_angles, check_source_depth, prepare_medium, run_fan, step_budget
 
-#: Candidates predicted this far below the dynamic range are not refined, dB.
+#: Arrivals predicted this far below the dynamic range are not refined, dB.
 PRUNE_MARGIN_DB = 10.0
-#: Default eigenray fan: widest launch angle, deg, and the coarsest spacing, deg.
+#: Fan of :func:`default_angles_deg` (the beam-TL fan): widest launch angle, deg.
 FAN_HALF_WIDTH_DEG = 80.0
+#: Eigenray search fan: widest launch angle, deg (steep image paths over hard seabeds at short range
+#: are within the dynamic range up to about 87 deg; the step budget grows as 1 / cos).
+SEARCH_HALF_WIDTH_DEG = 89.0
+#: Coarsest and finest fan spacing, deg.
 FAN_MAX_SPACING_DEG = 0.1
-#: Pruned candidates whose predicted launch angles differ by less than this are counted once, rad.
-DUPLICATE_ANGLE_RAD = 1e-4
-#: Fan gap refinement: rays added per suspicious gap, and rounds.
+FAN_MIN_SPACING_DEG = 0.01
+#: The search fan's spacing is chosen for this range, or the next octave of it above the longest
+#: range asked for, m.
+REFERENCE_RANGE_M = 10000.0
+#: Fan refinement: rays added per suspicious gap, and rounds (each round at most halves a spacing).
 GAP_RAYS = 3
-GAP_ROUNDS = 3
+GAP_ROUNDS = 5
+#: Widest ray tube (fraction of the shallowest water depth) before the fan is refined.
+TUBE_WIDTH_FRACTION = 1.0 / 16.0
+#: Refinement modes: interpolate from the fan and re-shoot only wide brackets, or re-shoot all.
+REFINE_MODES = ("auto", "reshoot")
 
 
 def default_angles_deg(site, max_range_m):
-    """A fan fine enough for several rays per bounce branch at ``max_range_m``."""
+    """A fan fine enough for several rays per bounce branch at ``max_range_m`` (+-80 deg)."""
     branch = math.degrees(float(np.min(site.seabed.depth_m)) / max_range_m)
     spacing = min(FAN_MAX_SPACING_DEG, 0.25 * branch)
     n = int(math.ceil(2.0 * FAN_HALF_WIDTH_DEG / spacing)) + 1
     return np.linspace(-FAN_HALF_WIDTH_DEG, FAN_HALF_WIDTH_DEG, n)
 
 
-def _refine_gaps(medium, thetas, rec, info, zs, r_sorted, r_max, budget):
-    """Add rays inside fan gaps where a whole bounce branch could hide.
+def reference_range_m(max_range_m):
+    """:data:`REFERENCE_RANGE_M`, doubled until it covers ``max_range_m``."""
+    octaves = max(0, math.ceil(math.log2(max_range_m / REFERENCE_RANGE_M) - 1e-12))
+    return REFERENCE_RANGE_M * 2.0 ** octaves
 
-    Where two adjacent rays reach a receiver range with histories that differ by two or more
-    (surface bounces + seabed bounces + caustics), a branch narrower than the fan spacing may lie
-    between them; :data:`GAP_RAYS` rays are added in each such gap, for up to :data:`GAP_ROUNDS`
-    rounds. Gaps that differ by one bounce are single branch edges, which the edge prediction covers.
+
+def search_angles_deg(site, max_range_m):
+    """The eigenray fan: +-:data:`SEARCH_HALF_WIDTH_DEG`, four rays per bounce branch at the
+    reference range (:func:`reference_range_m`), so it is the same for every call up to that range."""
+    branch = math.degrees(float(np.min(site.seabed.depth_m)) / reference_range_m(max_range_m))
+    spacing = min(FAN_MAX_SPACING_DEG, max(FAN_MIN_SPACING_DEG, 0.25 * branch))
+    n = int(math.ceil(2.0 * SEARCH_HALF_WIDTH_DEG / spacing)) + 1
+    return np.linspace(-SEARCH_HALF_WIDTH_DEG, SEARCH_HALF_WIDTH_DEG, n)
+
+
+def beam_floor_m(wavelength_m, path_m, q_m=None):
+    """Narrowest beam width (normal to the ray), m: one wavelength, at every path length.
+
+    Near a caustic the ray tubes shrink to nothing; a beam kept a wavelength wide keeps the caustic's
+    field finite. Wider floors (the Airy-zone width of a fold, (lambda^2 L)^(1/3); Kravtsov and Orlov
+    1993, ch. 2) smooth caustics more but truncate beams near the surface and the seabed: against a
+    normal-mode reference they lost 1.5-5 dB of incoherent intensity near the boundaries, the
+    wavelength floor 0.0-0.5 dB (median, isovelocity and refracting shallow water, 3-12 kHz).
     """
-    for _ in range(GAP_ROUNDS):
-        both = ~np.isnan(rec[:-1, :, _k.R_Z]) & ~np.isnan(rec[1:, :, _k.R_Z])
-        jump = np.abs(rec[1:, :, _k.R_NS] - rec[:-1, :, _k.R_NS]) + np.abs(
-            rec[1:, :, _k.R_NB] - rec[:-1, :, _k.R_NB]) + np.abs(rec[1:, :, _k.R_NC] - rec[:-1, :, _k.R_NC])
-        gaps = np.flatnonzero(np.any(both & (jump >= 2), axis=1))
-        if gaps.size == 0:
-            break
-        frac = np.arange(1, GAP_RAYS + 1) / (GAP_RAYS + 1)
-        new = (thetas[gaps, None] + frac[None, :] * (thetas[gaps + 1] - thetas[gaps])[:, None]).ravel()
-        rec_n, info_n, _ = run_fan(medium, new, zs, r_sorted, r_max, max_steps=budget)
-        order = np.argsort(np.concatenate([thetas, new]), kind="stable")
-        thetas = np.concatenate([thetas, new])[order]
-        rec = np.concatenate([rec, rec_n])[order]
-        info = np.concatenate([info, info_n])[order]
-    return np.ascontiguousarray(thetas), np.ascontiguousarray(rec), info
+    return np.maximum(wavelength_m, 0.0 * np.asarray(path_m, dtype=float))
+
+
+def _history(rec):
+    """(surface bounces, seabed bounces, caustics) of every record as floats, -1 where absent."""
+    return tuple(np.where(np.isnan(rec[..., col]), -1.0, rec[..., col]) for col in (_k.R_NS, _k.R_NB, _k.R_NC))
 
 
 def _check_receivers(site, ranges_m, depths_m):
@@ -135,8 +170,220 @@ def _surface_factor(site, sin2, n_surface, freq_hz, c_surface):
     return np.where((n_surface % 2 == 1)[..., None], -mag, mag)
 
 
+def _refine_fan(medium, thetas, rec, info, zs, r_sorted, r_max, budget, max_width_m):
+    """Add rays where the fan is too coarse for its beams.
+
+    Two reasons to add rays between adjacent rays i, i+1 (for up to :data:`GAP_ROUNDS` rounds):
+
+    * at some receiver range their histories differ by two or more (surface bounces + seabed bounces
+      + caustics): a branch narrower than the spacing may hide between them (:data:`GAP_RAYS` rays);
+    * they belong to one branch but their ray tube is wider than ``max_width_m`` at some receiver
+      range (|dz/dtheta0| dtheta0): a beam that wide would straddle the waveguide's features (one ray
+      in the middle).
+    """
+    for _ in range(GAP_ROUNDS):
+        a, b = rec[:-1], rec[1:]
+        both = ~np.isnan(a[..., _k.R_Z]) & ~np.isnan(b[..., _k.R_Z])
+        jump = sum(np.abs(b[..., col] - a[..., col]) for col in (_k.R_NS, _k.R_NB, _k.R_NC))
+        with np.errstate(invalid="ignore"):
+            tube = np.maximum(np.abs(_ke_dzdt(a)), np.abs(_ke_dzdt(b))) * np.diff(thetas)[:, None]
+            wide = np.any(both & (jump == 0) & (tube > max_width_m), axis=1)
+        gaps = np.any(both & (jump >= 2), axis=1)
+        if not (gaps.any() or wide.any()):
+            break
+        frac = np.arange(1, GAP_RAYS + 1) / (GAP_RAYS + 1)
+        g = np.flatnonzero(gaps)
+        w = np.flatnonzero(wide & ~gaps)
+        new = np.concatenate([(thetas[g, None] + frac[None, :] * (thetas[g + 1] - thetas[g])[:, None]).ravel(),
+                              0.5 * (thetas[w] + thetas[w + 1])])
+        rec_n, info_n, _ = run_fan(medium, new, zs, r_sorted, r_max, max_steps=budget)
+        order = np.argsort(np.concatenate([thetas, new]), kind="stable")
+        thetas = np.concatenate([thetas, new])[order]
+        rec = np.concatenate([rec, rec_n])[order]
+        info = np.concatenate([info, info_n])[order]
+    return np.ascontiguousarray(thetas), np.ascontiguousarray(rec), info
+
+
+def _ke_dzdt(rows):
+    """dz/dtheta0 at fixed range of crossing records (vectorised twin of ``_kernels_eigen.dz_dtheta``)."""
+    return rows[..., _k.R_DZ] - rows[..., _k.R_ZETA] / rows[..., _k.R_XI] * rows[..., _k.R_DX]
+
+
+def _ray_arrays(site, rec, thetas, r_sorted, c0, wavelength_m):
+    """Per ray and range: the arrays :func:`aculink.propagation._kernels_eigen.cluster_arrivals` reads.
+
+    Returns a dict with ``z``, ``t``, ``zeta``, ``kappa`` (d zeta/dz at fixed range), ``wz`` (vertical
+    beam width), ``amp`` (beam amplitude factor), ``fac_re``, ``fac_im`` (seabed product times caustic
+    phase), ``ns``, ``nb``, ``nc``, ``dzdt`` (dz/dtheta0).
+    """
+    z = rec[..., _k.R_Z]
+    ok = np.isfinite(z)
+    c = rec[..., _k.R_C]
+    xi = rec[..., _k.R_XI]
+    zeta = rec[..., _k.R_ZETA]
+    cz = np.zeros(z.shape)
+    cz[ok] = site.water.profile.evaluate(z[ok])[1]
+    with np.errstate(divide="ignore", invalid="ignore"):
+        dzdt = _ke_dzdt(rec)
+        dzeta = rec[..., _k.R_DZETA] + cz * rec[..., _k.R_DX] / (c ** 3 * xi)
+        kappa = np.where(np.abs(dzdt) > 1e-12, dzeta / dzdt, 0.0)
+        cos_t = np.abs(c * xi)
+        dtheta = np.abs(np.gradient(thetas))[:, None]
+        amp = dtheta * np.sqrt(c * np.cos(thetas)[:, None] * np.abs(dzdt) / (c0 * r_sorted[None, :] * cos_t))
+        wz = np.maximum(np.abs(dzdt) * dtheta, beam_floor_m(wavelength_m, rec[..., _k.R_S], cos_t * np.abs(dzdt)) / cos_t)
+    ns, nb, nc = _history(rec)
+    fac = (rec[..., _k.R_BRE] + 1j * rec[..., _k.R_BIM]) * np.exp(0.5j * np.pi * nc)
+    arrays = dict(z=z, t=rec[..., _k.R_T], zeta=zeta, kappa=kappa, wz=wz, amp=amp, fac_re=fac.real,
+                  fac_im=fac.imag, ns=ns, nb=nb, nc=nc)
+    out = {key: np.ascontiguousarray(np.where(ok, v, np.nan if key == "z" else 0.0), dtype=float)
+           for key, v in arrays.items()}
+    out["dzdt"] = dzdt
+    return out
+
+
+def _candidates(arrays, depths, freqs):
+    """Arrivals of every receiver from the fan (beam clusters).
+
+    Returns ``(ints (n, N_CLUSTER_INT), delay (n,), beam (n, F) complex)``.
+    """
+    names = ("z", "t", "zeta", "kappa", "wz", "amp", "fac_re", "fac_im", "ns", "nb", "nc")
+    args = [arrays[n] for n in names]
+    depths = np.ascontiguousarray(depths, dtype=float)
+    omegas = 2.0 * np.pi * np.asarray(freqs, dtype=float)
+    n_r, n_z, n_f = arrays["z"].shape[1], depths.size, omegas.size
+    counts = np.zeros((n_r, n_z), dtype=np.int64)
+    offsets = np.zeros((n_r, n_z), dtype=np.int64)
+    ints = np.zeros((0, _ke.N_CLUSTER_INT), dtype=np.int64)
+    delay, re, im = np.zeros(0), np.zeros((0, n_f)), np.zeros((0, n_f))
+    _ke.cluster_arrivals(*args, depths, omegas, counts, offsets, False, ints, delay, re, im)
+    total = int(counts.sum())
+    offsets = (np.cumsum(counts.ravel()) - counts.ravel()).reshape(counts.shape)
+    ints = np.zeros((total, _ke.N_CLUSTER_INT), dtype=np.int64)
+    delay, re, im = np.zeros(total), np.zeros((total, n_f)), np.zeros((total, n_f))
+    _ke.cluster_arrivals(*args, depths, omegas, counts, offsets, True, ints, delay, re, im)
+    return ints, delay, re + 1j * im
+
+
+def _absorption_db(rows, n_freq):
+    """Absorption (dB) at each medium frequency from crossing records, shape (..., F)."""
+    return np.stack([rows[..., _k.abs_column(m)] for m in range(n_freq)], axis=-1)
+
+
+def _prune(ints, predicted, dyn, shape):
+    """Keep arrivals within the dynamic range plus :data:`PRUNE_MARGIN_DB` of the strongest at their
+    receiver, by their predicted amplitudes (n, F) (the beam sum with the strongest ray's surface and
+    absorption factors); returns (keep mask, pruned counts per receiver)."""
+    jj, kk = ints[:, _ke.Q_RANGE], ints[:, _ke.Q_DEPTH]
+    with np.errstate(divide="ignore"):
+        peak = 20.0 * np.log10(np.abs(predicted)).max(axis=1) if predicted.size else np.zeros(0)
+    best = np.full(shape, -np.inf)
+    np.maximum.at(best, (jj, kk), peak)
+    keep = peak >= best[jj, kk] - dyn - PRUNE_MARGIN_DB
+    pruned = np.zeros(shape, dtype=int)
+    np.add.at(pruned, (jj[~keep], kk[~keep]), 1)
+    return keep, pruned
+
+
+def _interpolate_eigenrays(rec, thetas, arrays, ints, depths, n_freq):
+    """Eigenray values of bracketed arrivals from their two bracketing rays (no re-shooting).
+
+    Returns a dict of arrays (one entry per arrival): ``theta`` (launch angle, rad), ``zeta``, ``xi``,
+    ``path``, ``sin2``, ``absorption`` (n, F), ``nc``, and ``miss`` (the depth disagreement of the
+    Newton predictions from the two rays, m: the interpolation's error estimate).
+    """
+    jj = ints[:, _ke.Q_RANGE]
+    lo = ints[:, _ke.Q_BRACKET]
+    hi = lo + 1
+    zr = depths[ints[:, _ke.Q_DEPTH]]
+    z_lo, z_hi = arrays["z"][lo, jj], arrays["z"][hi, jj]
+    near = np.where(np.abs(zr - z_hi) <= np.abs(zr - z_lo), hi, lo)
+    far = np.where(near == hi, lo, hi)
+    d = zr - arrays["z"][near, jj]
+    zp_near, zp_far = arrays["dzdt"][near, jj], arrays["dzdt"][far, jj]
+    theta = thetas[near] + d / zp_near
+    theta_far = thetas[far] + (zr - arrays["z"][far, jj]) / zp_far
+    # interpolate in launch angle (the fan's own parameter) at the Newton-predicted eigenray
+    u = np.clip((theta - thetas[lo]) / (thetas[hi] - thetas[lo]), 0.0, 1.0)
+    a, b = rec[lo, jj], rec[hi, jj]
+
+    def lerp(col):
+        return a[:, col] + u * (b[:, col] - a[:, col])
+
+    absorption = _absorption_db(a, n_freq) + u[:, None] * (_absorption_db(b, n_freq) - _absorption_db(a, n_freq))
+    return dict(theta=theta, zeta=arrays["zeta"][near, jj] + arrays["kappa"][near, jj] * d, xi=lerp(_k.R_XI),
+                path=lerp(_k.R_S), sin2=lerp(_k.R_SIN2), absorption=absorption, nc=arrays["nc"][near, jj],
+                miss=np.abs(zp_near) * np.abs(theta - theta_far), near=near, far=far)
+
+
+def _reshoot(medium, zs, rec, thetas, near, far, jj, zr, r_sorted, budget, tol):
+    """Re-shoot the eigenrays of the given brackets; returns (records, launch angles, converged)."""
+    rows0 = np.ascontiguousarray(rec[near, jj])
+    m = near.size
+    out_rec = np.full((m, rec.shape[2]), np.nan)
+    out_theta = np.zeros(m)
+    out_ok = np.zeros(m, dtype=np.bool_)
+    _ke.refine_all(np.ascontiguousarray(thetas[near]), np.ascontiguousarray(rows0[:, _k.R_Z] - zr),
+                   np.ascontiguousarray(thetas[far]), rows0, np.ascontiguousarray(zr, dtype=float),
+                   np.ascontiguousarray(r_sorted[jj]), float(zs), medium.kernel(), int(budget), float(tol),
+                   out_rec, out_theta, out_ok)
+    return out_rec, out_theta, out_ok
+
+
+def _refine(site, medium, zs, rec, thetas, arrays, ints, delay, depths, r_sorted, budget, tol, mode):
+    """Eigenray values (launch angle, arrival slowness, path, grazing sum, absorption, caustics, delay)
+    of every arrival: interpolated from its bracket, re-shot where the bracket is too wide (or always
+    with ``mode="reshoot"``), or those of its strongest ray where it has no bracket."""
+    n_f = medium.n_freq
+    jj = ints[:, _ke.Q_RANGE]
+    p = ints[:, _ke.Q_PRINCIPAL]
+    prow = rec[p, jj]
+    out = dict(theta=thetas[p].copy(), zeta=prow[:, _k.R_ZETA].copy(), xi=prow[:, _k.R_XI].copy(),
+               path=prow[:, _k.R_S].copy(), sin2=prow[:, _k.R_SIN2].copy(), absorption=_absorption_db(prow, n_f),
+               nc=arrays["nc"][p, jj].copy(), delay=delay.copy())
+    br = np.flatnonzero(ints[:, _ke.Q_BRACKET] >= 0)
+    if br.size == 0:
+        return out
+    got = _interpolate_eigenrays(rec, thetas, arrays, ints[br], depths, n_f)
+    for key in ("theta", "zeta", "xi", "path", "sin2", "absorption", "nc"):
+        out[key][br] = got[key]
+    wide = (got["miss"] > tol) if mode == "auto" else np.ones(br.size, dtype=bool)
+    if wide.any():
+        sel = br[wide]
+        zr = depths[ints[sel, _ke.Q_DEPTH]]
+        rows, th, ok = _reshoot(medium, zs, rec, thetas, got["near"][wide], got["far"][wide], jj[sel], zr, r_sorted,
+                                budget, tol)
+        sel, rows, th, zr = sel[ok], rows[ok], th[ok], zr[ok]
+        out["theta"][sel] = th
+        out["zeta"][sel] = rows[:, _k.R_ZETA]
+        out["xi"][sel] = rows[:, _k.R_XI]
+        out["path"][sel] = rows[:, _k.R_S]
+        out["sin2"][sel] = rows[:, _k.R_SIN2]
+        out["absorption"][sel] = _absorption_db(rows, n_f)
+        out["nc"][sel] = rows[:, _k.R_NC]
+        single = ints[sel, _ke.Q_N_BRACKETS] == 1
+        out["delay"][sel[single]] = _delay_at_receiver(site, rows[single], zr[single])
+    return out
+
+
+def _merge(site, medium, ints, beam, eig, freqs, dyn, shape):
+    """Each arrival's amplitude (beam sum x Eckart surface factor x absorption) and the mask of those
+    within ``dyn`` dB of the strongest at their receiver at some frequency (and the dropped counts)."""
+    surface = _surface_factor(site, eig["sin2"], ints[:, _ke.Q_NS], freqs, medium.surface_speed_mps)
+    amp = beam * surface * 10.0 ** (-eig["absorption"] / 20.0)
+    with np.errstate(divide="ignore"):
+        level = 20.0 * np.log10(np.abs(amp))
+    jj, kk = ints[:, _ke.Q_RANGE], ints[:, _ke.Q_DEPTH]
+    top = np.full(shape + (freqs.size,), -np.inf)
+    np.maximum.at(top, (jj, kk), level)
+    strong = np.any(level >= top[jj, kk] - dyn, axis=1)
+    dropped = np.zeros(shape, dtype=int)
+    np.add.at(dropped, (jj[~strong], kk[~strong]), 1)
+    return amp, strong, dropped
+
+
+
 def find_arrivals(site, ranges_m=None, depths_m=None, freq_hz=None, *, source_depth_m=None, angles_deg=None,
-                  dynamic_range_db=40.0, tolerance_m=0.1, bottom_reflection=None, step_m=None):
+                  dynamic_range_db=40.0, tolerance_m=0.1, bottom_reflection=None, step_m=None, refine="auto"):
     """Eigenrays from the source to every receiver on a range x depth grid.
 
     Parameters
@@ -151,7 +398,8 @@ def find_arrivals(site, ranges_m=None, depths_m=None, freq_hz=None, *, source_de
     source_depth_m : float, optional
         Source depth, m (default the site's source).
     angles_deg : array_like, optional
-        The search fan's launch angles, deg (default :func:`default_angles_deg`).
+        The search fan's launch angles, deg (default :func:`search_angles_deg`: +-89 deg, spaced for
+        the site's reference range, so the same for every receiver set up to that range).
     dynamic_range_db : float
         Arrivals more than this below the strongest at the same receiver are dropped (and counted).
     tolerance_m : float
@@ -160,13 +408,18 @@ def find_arrivals(site, ranges_m=None, depths_m=None, freq_hz=None, *, source_de
         ``f(grazing_rad) -> complex`` seabed coefficient (default Rayleigh from the site).
     step_m : float, optional
         Arc-length step of the integrator, m.
+    refine : {"auto", "reshoot"}
+        ``"auto"``: eigenrays interpolated from the fan, re-shot only where a bracket is too wide for
+        ``tolerance_m``; ``"reshoot"``: every bracketed eigenray re-shot (slower; the reference).
+
     Returns
     -------
     xarray.Dataset
         Dims ``range``, ``depth``, ``arrival`` (padded, sorted by delay) and ``frequency``:
         ``delay_s``, ``amplitude`` (complex, re 1 m), ``launch_angle_deg``, ``arrival_angle_deg``,
         ``surface_bounces``, ``bottom_bounces``, ``caustics``, ``path_length_m``,
-        ``surface_grazing_sin2_sum``, ``absorption_db``, ``n_arrivals``, ``n_dropped``. Attrs ``site``,
+        ``surface_grazing_sin2_sum``, ``absorption_db``, ``n_rays``, ``n_eigenrays``, ``n_arrivals``,
+        ``n_dropped``. Attrs ``site``,
         ``source_depth_m``, ``dynamic_range_db`` and ``reason`` where a receiver has no arrival.
 
     Raises
@@ -190,12 +443,13 @@ def find_arrivals(site, ranges_m=None, depths_m=None, freq_hz=None, *, source_de
     variables, coords, attrs = solve_arrivals(site, ranges_m, depths_m, freq_hz, source_depth_m=source_depth_m,
                                               angles_deg=angles_deg, dynamic_range_db=dynamic_range_db,
                                               tolerance_m=tolerance_m, bottom_reflection=bottom_reflection,
-                                              step_m=step_m)
+                                              step_m=step_m, refine=refine)
     return xr.Dataset(variables, coords=coords, attrs=attrs)
 
 
+
 def solve_arrivals(site, ranges_m=None, depths_m=None, freq_hz=None, *, source_depth_m=None, angles_deg=None,
-                   dynamic_range_db=40.0, tolerance_m=0.1, bottom_reflection=None, step_m=None):
+                   dynamic_range_db=40.0, tolerance_m=0.1, bottom_reflection=None, step_m=None, refine="auto"):
     """The work of :func:`find_arrivals`, returned as plain ``(variables, coords, attrs)``.
 
     ``variables`` and ``coords`` map names to ``(dims, numpy array, attrs)``; the command line reads
@@ -208,138 +462,84 @@ def solve_arrivals(site, ranges_m=None, depths_m=None, freq_hz=None, *, source_d
         check_range("freq_hz", f, 0.0, 1.0e6, low_open=True, unit="Hz")
     dyn = check_range("dynamic_range_db", dynamic_range_db, 0.0, 300.0, unit="dB")
     tol = check_range("tolerance_m", tolerance_m, 0.0, 10.0, low_open=True, unit="m")
+    if refine not in REFINE_MODES:
+        raise AculinkError(f"refine = {refine!r}: allowed values are {', '.join(REFINE_MODES)}")
     order = np.argsort(ranges)
     r_sorted = ranges[order]
     r_max = float(r_sorted[-1])
-    angles = check_angles(default_angles_deg(site, r_max) if angles_deg is None else angles_deg)
+    angles = check_angles(search_angles_deg(site, r_max) if angles_deg is None else angles_deg)
     if angles.size < 2:
         raise AculinkError("angles_deg needs at least 2 launch angles to bracket eigenrays")
-    medium = prepare_medium(site, float(freqs.min()), bottom_reflection=bottom_reflection, step_m=step_m)
+    medium = prepare_medium(site, freqs, bottom_reflection=bottom_reflection, step_m=step_m)
     thetas = np.radians(angles)
     budget = step_budget(r_max, medium.step_m, float(np.max(np.abs(angles))))
     rec, info, _ = run_fan(medium, thetas, zs, r_sorted, r_max, max_steps=budget)
-    thetas, rec, info = _refine_gaps(medium, thetas, rec, info, zs, r_sorted, r_max, budget)
+    thetas, rec, info = _refine_fan(medium, thetas, rec, info, zs, r_sorted, r_max, budget,
+                                    TUBE_WIDTH_FRACTION * float(np.min(site.seabed.depth_m)))
+    reasons = _unreached(rec, info, r_sorted, angles)
+    shape = (ranges.size, depths.size)
+
+    c0 = float(site.water.profile.speed(zs))
+    wavelength = c0 / float(freqs.min())
+    arrays = _ray_arrays(site, rec, thetas, r_sorted, c0, wavelength)
+    ints, delay, beam = _candidates(arrays, depths, freqs)
+    p = ints[:, _ke.Q_PRINCIPAL]
+    prow = rec[p, ints[:, _ke.Q_RANGE]]
+    guess = _surface_factor(site, prow[:, _k.R_SIN2], ints[:, _ke.Q_NS], freqs, medium.surface_speed_mps)
+    keep, pruned = _prune(ints, np.abs(beam * guess) * 10.0 ** (-_absorption_db(prow, medium.n_freq) / 20.0),
+                          dyn, shape)
+    ints, delay, beam = ints[keep], delay[keep], beam[keep]
+    eig = _refine(site, medium, zs, rec, thetas, arrays, ints, delay, depths, r_sorted, budget, tol, refine)
+    amp, strong, dropped = _merge(site, medium, ints, beam, eig, freqs, dyn, shape)
+    sel = {key: v[strong] for key, v in eig.items()}
+    return _pack(site, ranges, depths, freqs, order, ints[strong], amp[strong], sel, pruned + dropped, reasons,
+                 zs, dyn, tol)
+
+
+def _unreached(rec, info, r_sorted, angles):
+    """Why receiver ranges no ray reached are empty; raises when the fan itself falls short."""
     reasons = {}
     reached = ~np.isnan(rec[:, :, _k.R_Z])
     for j in np.flatnonzero(~reached.any(axis=0)):
-        short = info[:, 2] != _k.END_WEAK
-        if np.any(short & (info[:, 3] < r_sorted[j])):
+        short = info[:, _k.I_END] != _k.END_WEAK
+        if np.any(short & (info[:, _k.I_X_END] < r_sorted[j])):
             raise AculinkError(
                 f"angles_deg = [{angles[0]:g}, {angles[-1]:g}] deg: no ray of the fan reaches range "
-                f"{r_sorted[j]:g} m (furthest {info[:, 3].max():g} m); widen or move the fan")
+                f"{r_sorted[j]:g} m (furthest {info[:, _k.I_X_END].max():g} m); widen or move the fan")
         reasons[j] = "every ray fell below the amplitude floor before this range"
+    return reasons
 
-    # candidates
-    cand = np.zeros((0, _ke.N_CANDIDATE))
-    n = _ke.find_brackets(rec, thetas, depths, cand)
-    cand = np.zeros((n, _ke.N_CANDIDATE))
-    _ke.find_brackets(rec, thetas, depths, cand)
-    jj = cand[:, _ke.C_RANGE].astype(int)
-    kk = cand[:, _ke.C_DEPTH].astype(int)
-    rows0 = rec[cand[:, _ke.C_FROM].astype(int), jj]
-    c0 = float(site.water.profile.speed(zs))
-    cos0 = np.cos(thetas[cand[:, _ke.C_FROM].astype(int)])
-    pred = (_spreading(rows0, cos0, c0, r_sorted[jj]) * np.hypot(rows0[:, _k.R_BRE], rows0[:, _k.R_BIM])
-            * 10.0 ** (-rows0[:, _k.R_ABS] / 20.0))
-    with np.errstate(divide="ignore"):
-        pred_db = 20.0 * np.log10(pred)
+
+def _pack(site, ranges, depths, freqs, order, ints, amp, eig, n_dropped, reasons, zs, dyn, tol):
+    """Padded (range, depth, arrival) arrays sorted by delay, in the caller's range order."""
     n_r, n_z = ranges.size, depths.size
-    best = np.full((n_r, n_z), -np.inf)
-    np.maximum.at(best, (jj, kk), pred_db)
-    keep = pred_db >= best[jj, kk] - dyn - PRUNE_MARGIN_DB
-    pruned = cand[~keep]
-    cand = np.ascontiguousarray(cand[keep])
-
-    # refinement by re-shooting
-    edges = depth_bin_edges(site)
-    alpha = absorption_table_db_per_m(site, freqs, edges)  # (F, B)
-    shoot = cand
-    m = shoot.shape[0]
-    out_rec = np.full((m, _k.N_RECORD), np.nan)
-    out_bins = np.zeros((m, edges.size - 1))
-    out_theta = np.zeros(m)
-    out_ok = np.zeros(m, dtype=np.bool_)
-    _ke.refine_all(shoot, thetas, rec, depths, r_sorted, zs, *medium.kernel_args(), medium.step_m, budget,
-                   medium.floor_mag, tol, out_rec, out_bins, out_theta, out_ok)
-    jj = shoot[out_ok, _ke.C_RANGE].astype(int)
-    kk = shoot[out_ok, _ke.C_DEPTH].astype(int)
-    rows, th = out_rec[out_ok], out_theta[out_ok]
-    absorption = out_bins[out_ok] @ alpha.T  # (n, F)
-
-    # merge duplicates: same receiver and history, launch angles within the tolerance's angular width
-    hist = rows[:, [_k.R_NS, _k.R_NB, _k.R_NC]].astype(int)
-    srt = np.lexsort((th, hist[:, 2], hist[:, 1], hist[:, 0], kk, jj))
-    jj, kk, rows, absorption, th, hist = jj[srt], kk[srt], rows[srt], absorption[srt], th[srt], hist[srt]
-    dzdt = np.abs(rows[:, _k.R_DZ] - rows[:, _k.R_ZETA] / rows[:, _k.R_XI] * rows[:, _k.R_DX])
-    width = np.maximum(1e-9, 4.0 * tol / np.maximum(dzdt, 1e-30))
-    dup = np.zeros(th.size, dtype=bool)
-    if th.size > 1:
-        same = (jj[1:] == jj[:-1]) & (kk[1:] == kk[:-1]) & np.all(hist[1:] == hist[:-1], axis=1)
-        dup[1:] = same & (np.abs(th[1:] - th[:-1]) <= np.maximum(width[1:], width[:-1]))
-    keep = ~dup
-    jj, kk, rows, absorption, th, hist = jj[keep], kk[keep], rows[keep], absorption[keep], th[keep], hist[keep]
-
-    # physical quantities
-    zr = depths[kk]
-    r_of = r_sorted[jj]
-    delay = _delay_at_receiver(site, rows, zr)
-    spread = _spreading(rows, np.cos(th), c0, r_of)
-    surface = _surface_factor(site, rows[:, _k.R_SIN2], hist[:, 0], freqs, medium.surface_speed_mps)
-    bottom = rows[:, _k.R_BRE] + 1j * rows[:, _k.R_BIM]
-    caustic = np.exp(0.5j * np.pi * hist[:, 2])
-    amp = (spread * bottom * caustic)[:, None] * surface * 10.0 ** (-absorption / 20.0)
-    with np.errstate(divide="ignore"):
-        level = 20.0 * np.log10(np.abs(amp))
-    top = np.full((n_r, n_z, freqs.size), -np.inf)
-    np.maximum.at(top, (jj, kk), level)
-    strong = np.any(level >= top[jj, kk] - dyn, axis=1)
-
-    n_dropped = np.zeros((n_r, n_z), dtype=int)
-    np.add.at(n_dropped, (jj[~strong], kk[~strong]), 1)
-    if pruned.size:
-        # distinct pruned eigenrays: by receiver, history and predicted launch angle
-        pj = pruned[:, _ke.C_RANGE].astype(int)
-        pk = pruned[:, _ke.C_DEPTH].astype(int)
-        prow = rec[pruned[:, _ke.C_FROM].astype(int), pj]
-        ph = prow[:, [_k.R_NS, _k.R_NB, _k.R_NC]].astype(int)
-        pth = thetas[pruned[:, _ke.C_FROM].astype(int)] + (depths[pk] - prow[:, _k.R_Z]) / (
-            prow[:, _k.R_DZ] - prow[:, _k.R_ZETA] / prow[:, _k.R_XI] * prow[:, _k.R_DX])
-        o = np.lexsort((pth, ph[:, 2], ph[:, 1], ph[:, 0], pk, pj))
-        key = np.column_stack([pj, pk, ph])[o]
-        new = np.r_[True, np.any(key[1:] != key[:-1], axis=1) | (np.diff(pth[o]) > DUPLICATE_ANGLE_RAD)]
-        np.add.at(n_dropped, (pj[o][new], pk[o][new]), 1)
-    sel = strong
-    jj, kk, rows, th, hist = jj[sel], kk[sel], rows[sel], th[sel], hist[sel]
-    delay, amp, absorption = delay[sel], amp[sel], absorption[sel]
-
-    # pack into padded arrays sorted by delay
+    jj, kk = ints[:, _ke.Q_RANGE], ints[:, _ke.Q_DEPTH]
     counts = np.zeros((n_r, n_z), dtype=int)
     np.add.at(counts, (jj, kk), 1)
     n_a = max(1, int(counts.max()) if counts.size else 1)
-    srt = np.lexsort((delay, kk, jj))
-    jj, kk, rows, th, hist = jj[srt], kk[srt], rows[srt], th[srt], hist[srt]
-    delay, amp, absorption = delay[srt], amp[srt], absorption[srt]
+    srt = np.lexsort((eig["delay"], kk, jj))
+    jj, kk, ints, amp = jj[srt], kk[srt], ints[srt], amp[srt]
+    eig = {key: v[srt] for key, v in eig.items()}
+    delay = eig["delay"]
     first = np.zeros(jj.size, dtype=int)
     if jj.size:
         start = np.r_[True, (jj[1:] != jj[:-1]) | (kk[1:] != kk[:-1])]
         idx = np.arange(jj.size)
         first = idx - np.maximum.accumulate(np.where(start, idx, 0))
     shape3 = (n_r, n_z, n_a)
+    inv = np.argsort(order)  # back to the caller's range order
 
     def fill(values, pad, dtype=float):
         out = np.full(shape3 + np.shape(values)[1:], pad, dtype=dtype)
         out[jj, kk, first] = values
-        return out
+        return out[inv]
 
-    arrival_angle = np.degrees(np.arctan2(rows[:, _k.R_ZETA], rows[:, _k.R_XI]))
-    inv = np.argsort(order)  # back to the caller's range order
-
-    def back(a):
-        return a[inv]
-
+    arrival_angle = np.degrees(np.arctan2(eig["zeta"], eig["xi"]))
     empty = counts == 0
+    r_sorted = ranges[order]
     attrs = {"site": site.name, "source_depth_m": zs, "dynamic_range_db": dyn, "tolerance_m": tol,
-             "title": "eigenray arrivals"}
+             "title": "eigenray arrivals",
+             "amplitude_method": "Gaussian-beam sum of the fan's rays per arrival (Cerveny 2001, ch. 5)"}
     if empty.any():
         j, k = np.argwhere(empty)[0]
         why = reasons.get(j) or (f"no eigenray within {dyn:g} dB found" if n_dropped[j, k] else
@@ -351,23 +551,30 @@ def solve_arrivals(site, ranges_m=None, depths_m=None, freq_hz=None, *, source_d
     dims4 = dims3 + ("frequency",)
     return (
         {
-            "delay_s": (dims3, back(fill(delay, np.nan)), {"units": "s", "long_name": "travel time from the source"}),
-            "amplitude": (dims4, back(fill(amp, 0.0, complex)), {
+            "delay_s": (dims3, fill(delay, np.nan), {"units": "s", "long_name": "travel time from the source"}),
+            "amplitude": (dims4, fill(amp, 0.0, complex), {
                 "units": "1", "long_name": "complex pressure relative to 1 m from the source (exp(+j omega t))"}),
-            "launch_angle_deg": (dims3, back(fill(np.degrees(th), np.nan)), {
+            "launch_angle_deg": (dims3, fill(np.degrees(eig["theta"]), np.nan), {
                 "units": "degree", "long_name": "launch angle below the horizontal"}),
-            "arrival_angle_deg": (dims3, back(fill(arrival_angle, np.nan)), {
+            "arrival_angle_deg": (dims3, fill(arrival_angle, np.nan), {
                 "units": "degree", "long_name": "arrival angle below the horizontal, direction of travel"}),
-            "surface_bounces": (dims3, back(fill(hist[:, 0], -1, int)), dict(int_attrs, long_name="surface reflections")),
-            "bottom_bounces": (dims3, back(fill(hist[:, 1], -1, int)), dict(int_attrs, long_name="seabed reflections")),
-            "caustics": (dims3, back(fill(hist[:, 2], -1, int)), dict(int_attrs, long_name="caustics passed")),
-            "path_length_m": (dims3, back(fill(rows[:, _k.R_S], np.nan)), {"units": "m", "long_name": "path length"}),
-            "surface_grazing_sin2_sum": (dims3, back(fill(rows[:, _k.R_SIN2], np.nan)), {
+            "surface_bounces": (dims3, fill(ints[:, _ke.Q_NS], -1, int),
+                                dict(int_attrs, long_name="surface reflections")),
+            "bottom_bounces": (dims3, fill(ints[:, _ke.Q_NB], -1, int),
+                               dict(int_attrs, long_name="seabed reflections")),
+            "caustics": (dims3, fill(eig["nc"].astype(int), -1, int),
+                         dict(int_attrs, long_name="caustics passed by the arrival's eigenray (or strongest ray)")),
+            "n_rays": (dims3, fill(ints[:, _ke.Q_LAST] - ints[:, _ke.Q_FIRST] + 1, 0, int), {
+                "units": "1", "long_name": "fan rays whose beams make up the arrival"}),
+            "n_eigenrays": (dims3, fill(ints[:, _ke.Q_N_BRACKETS], -1, int), dict(
+                int_attrs, long_name="eigenrays (bracketing ray pairs) merged into the arrival; 0: beside a caustic")),
+            "path_length_m": (dims3, fill(eig["path"], np.nan), {"units": "m", "long_name": "path length"}),
+            "surface_grazing_sin2_sum": (dims3, fill(eig["sin2"], np.nan), {
                 "units": "1", "long_name": "sum of sin^2 of the grazing angle over the surface bounces"}),
-            "absorption_db": (dims4, back(fill(absorption, np.nan)), {
+            "absorption_db": (dims4, fill(eig["absorption"], np.nan), {
                 "units": "dB", "long_name": "absorption along the path (Francois-Garrison)"}),
-            "n_arrivals": (("range", "depth"), back(counts), {"units": "1", "long_name": "arrivals kept"}),
-            "n_dropped": (("range", "depth"), back(n_dropped), {
+            "n_arrivals": (("range", "depth"), counts[inv], {"units": "1", "long_name": "arrivals kept"}),
+            "n_dropped": (("range", "depth"), n_dropped[inv], {
                 "units": "1", "long_name": "arrivals dropped below the dynamic range"}),
         },
         {

@@ -73,10 +73,19 @@ class Medium:
     max_range_m: float
     surface_speed_mps: float
 
+    @property
+    def n_freq(self):
+        """Frequencies whose absorption the kernels accumulate (rows of ``ab_db``)."""
+        return int(self.ab_db.shape[0])
+
+    def kernel(self):
+        """The :class:`aculink.propagation._kernels.KernelMedium` the kernels read."""
+        return _k.KernelMedium(self.knots, self.coef, self.bed_r, self.bed_z, self.bed_slope, self.bt_step,
+                               self.bt_re, self.bt_im, self.ab_dz, self.ab_db, self.step_m, self.floor_mag)
+
     def kernel_args(self):
         """Arguments of :func:`aculink.propagation._kernels.trace_ray` after ``theta0, zs``."""
-        return (self.knots, self.coef, self.bed_r, self.bed_z, self.bed_slope, self.bt_step, self.bt_re,
-                self.bt_im, self.ab_dz, self.ab_db)
+        return (self.kernel(),)
 
 
 def bottom_reflection_table(site, bottom_reflection=None, size=BOTTOM_TABLE_SIZE):
@@ -127,7 +136,8 @@ def depth_bin_edges(site):
 
 
 def prepare_medium(site, freq_hz=None, *, bottom_reflection=None, step_m=None) -> Medium:
-    """Build the kernel inputs for ``site``; absorption at ``freq_hz`` (none when None)."""
+    """Build the kernel inputs for ``site``; absorption at ``freq_hz`` (a number or an array: the
+    kernels accumulate the loss at each; none when None)."""
     prof = site.water.profile
     bed = site.seabed
     if bed.range_m.size == 1:
@@ -140,9 +150,9 @@ def prepare_medium(site, freq_hz=None, *, bottom_reflection=None, step_m=None) -
     step, table = bottom_reflection_table(site, bottom_reflection)
     edges = depth_bin_edges(site)
     if freq_hz is None:
-        ab = np.zeros(ABSORPTION_BINS)
+        ab = np.zeros((1, ABSORPTION_BINS))
     else:
-        ab = absorption_table_db_per_m(site, freq_hz, edges)[0]
+        ab = absorption_table_db_per_m(site, np.atleast_1d(np.asarray(freq_hz, dtype=float)).ravel(), edges)
     if step_m is None:
         step_m = min(STEP_M, 0.25 * float(np.min(bed.depth_m)))
     return Medium(
@@ -184,25 +194,30 @@ def check_max_range(site, max_range_m):
 
 def step_budget(max_range_m, step_m, max_angle_deg):
     """Steps a ray may take: the straight path at the steepest angle, with room for refraction
-    and the extra landing steps at boundaries."""
-    cos_a = math.cos(math.radians(min(abs(max_angle_deg), 85.0)))
+    and the extra landing steps at boundaries. Only rays that neither die on the seabed nor reach
+    the range use it up, so a generous budget costs nothing on ordinary rays."""
+    cos_a = math.cos(math.radians(min(abs(max_angle_deg), MAX_LAUNCH_DEG)))
     return int(1.5 * max_range_m / (step_m * cos_a)) + 2000
 
 
 def run_fan(medium: Medium, thetas_rad, zs, rec_r, r_max, *, path_points=0, max_steps=None,
             parallel=True):
-    """Trace a fan; return (records (rays, ranges, N_RECORD), info (rays, 7), paths or None)."""
+    """Trace a fan; return (records (rays, ranges, record width), info (rays, N_INFO), paths or None).
+
+    Record columns are the ``R_*`` constants of :mod:`aculink.propagation._kernels` (and
+    :func:`~aculink.propagation._kernels.abs_column` for the absorption at each medium frequency);
+    ``info`` columns the ``I_*`` constants.
+    """
     thetas = np.ascontiguousarray(thetas_rad, dtype=float)
     rec_r = np.ascontiguousarray(rec_r, dtype=float)
     n = thetas.size
-    rec = np.full((n, rec_r.size, _k.N_RECORD), np.nan)
+    rec = np.full((n, rec_r.size, _k.record_width(medium.n_freq)), np.nan)
     paths = [np.full((n, path_points), np.nan) for _ in range(4)]
-    info = np.zeros((n, 7))
+    info = np.zeros((n, _k.N_INFO))
     if max_steps is None:
         max_steps = step_budget(r_max, medium.step_m, np.degrees(np.max(np.abs(thetas))))
     driver = _k.trace_fan if parallel and n > 1 else _k.trace_fan_serial
-    driver(thetas, float(zs), *medium.kernel_args(), medium.step_m, float(r_max), int(max_steps),
-           medium.floor_mag, rec_r, rec, *paths, info)
+    driver(thetas, float(zs), medium.kernel(), float(r_max), int(max_steps), rec_r, rec, *paths, info)
     return rec, info, (paths if path_points else None)
 
 
@@ -258,7 +273,7 @@ def trace_rays(site, source_depth_m=None, angles_deg=None, max_range_m=None, *, 
     budget = step_budget(r_max, medium.step_m, float(np.max(np.abs(angles))))
     _, info, paths = run_fan(medium, np.radians(angles), zs, np.empty(0), r_max, path_points=budget + 1,
                              max_steps=budget)
-    n_used = int(info[:, 0].max())
+    n_used = int(info[:, _k.I_POINTS].max())
     px, pz, pt, pa = (p[:, :n_used] for p in paths)
     ray = np.arange(angles.size)
     dims = ("ray", "point")
@@ -272,16 +287,16 @@ def trace_rays(site, source_depth_m=None, angles_deg=None, max_range_m=None, *, 
                                                  "long_name": "ray angle below the horizontal"}),
             "launch_angle_deg": ("ray", angles, {"units": "degree",
                                                  "long_name": "launch angle below the horizontal"}),
-            "surface_bounces": ("ray", info[:, 4].astype(int), {"units": "1",
+            "surface_bounces": ("ray", info[:, _k.I_NS].astype(int), {"units": "1",
                                                                 "long_name": "surface reflections"}),
-            "bottom_bounces": ("ray", info[:, 5].astype(int), {"units": "1", "long_name": "seabed reflections"}),
-            "caustics": ("ray", info[:, 6].astype(int), {"units": "1", "long_name": "caustics passed"}),
-            "termination": ("ray", info[:, 2].astype(int), {
+            "bottom_bounces": ("ray", info[:, _k.I_NB].astype(int), {"units": "1", "long_name": "seabed reflections"}),
+            "caustics": ("ray", info[:, _k.I_NC].astype(int), {"units": "1", "long_name": "caustics passed"}),
+            "termination": ("ray", info[:, _k.I_END].astype(int), {
                 "units": "1", "long_name": "why the ray stopped",
                 "flag_values": np.array([_k.END_RANGE, _k.END_BACKWARD, _k.END_WEAK, _k.END_STEPS]),
                 "flag_meanings": TERMINATION_MEANINGS}),
-            "end_range_m": ("ray", info[:, 3], {"units": "m", "long_name": "range where the ray stopped"}),
-            "n_steps": ("ray", info[:, 1].astype(int), {"units": "1", "long_name": "integration steps taken"}),
+            "end_range_m": ("ray", info[:, _k.I_X_END], {"units": "m", "long_name": "range where the ray stopped"}),
+            "n_steps": ("ray", info[:, _k.I_STEPS].astype(int), {"units": "1", "long_name": "integration steps taken"}),
         },
         coords={"ray": ("ray", ray, {"long_name": "ray index"}),
                 "point": ("point", np.arange(n_used), {"long_name": "path point index"})},

@@ -21,6 +21,7 @@ import numpy as np
 
 from aculink.errors import AculinkError, check_range, closest
 from aculink.site.model import (
+    LIMITS,
     MAX_DEPTH_M,
     Modem,
     Noise,
@@ -60,19 +61,7 @@ PROFILES = {
              "epsilon": 0.00737},
 }
 #: Allowed ranges of the [water] numbers that are not stored on the Water object.
-_WATER_LIMITS = {
-    "depth_m": (0.0, MAX_DEPTH_M, "m"),
-    "temperature_c": (-3.0, 40.0, "degC"),
-    "salinity_psu": (0.0, 45.0, "psu"),
-    "pressure_dbar": (0.0, 12000.0, "dbar"),
-    "sound_speed_mps": (1300.0, 1800.0, "m/s"),
-    "surface_speed_mps": (1300.0, 1800.0, "m/s"),
-    "axis_speed_mps": (1300.0, 1800.0, "m/s"),
-    "gradient_per_s": (-0.5, 0.5, "1/s"),
-    "axis_depth_m": (0.0, MAX_DEPTH_M, "m"),
-    "scale_depth_m": (10.0, 1.0e4, "m"),
-    "epsilon": (0.0, 0.05, ""),
-}
+_WATER_LIMITS = {key: (low, high, unit) for key, (low, high, _, _, unit) in LIMITS["water"].items()}
 _WATER_COMMON = ("ph", "latitude_deg", "longitude_deg", "density_kgm3")
 _WATER_FORMS = {
     "table": ("depth_m", "sound_speed_mps", "temperature_c", "salinity_psu"),
@@ -92,7 +81,7 @@ SECTION_KEYS = {
     "receiver": ("depth_m", "range_m", "speed_mps", "directivity_index_db"),
     "modem": ("carrier_hz", "bandwidth_hz", "rolloff", "target_ber", "margin_db"),
 }
-_TOP_KEYS = ("name", "description")
+_TOP_KEYS = ("name", "description", "variability")
 _REQUIRED = {"water": (), "seabed": ("depth_m",), "source": ("depth_m",),
              "receiver": ("depth_m", "range_m")}
 #: Wind at 10 m assumed when [surface] gives neither wind nor wave height, m/s (a moderate
@@ -582,9 +571,16 @@ def _site_from_dict(data, base_dir, name, text, path):
     receiver = _simple("receiver", sections["receiver"], Receiver)
     modem = _simple("modem", sections["modem"], Modem)
     _check_geometry(seabed, source, receiver)
+    variability = None
+    if "variability" in data:  # alternatives are whole sites, validated as this file is
+        from aculink.site.variability import parse_variability
+
+        variability = parse_variability(
+            data["variability"], data,
+            build_site=lambda alt: _site_from_dict(alt, base_dir, name, text, path))
     return Site(name=site_name, water=water, seabed=seabed, surface=surface, noise=noise,
                 source=source, receiver=receiver, modem=modem, description=description,
-                path=None if path is None else str(path), text=text)
+                path=None if path is None else str(path), text=text, variability=variability)
 
 
 def load_site(path) -> Site:

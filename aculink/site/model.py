@@ -21,6 +21,18 @@ from aculink.site.profile import SoundSpeedProfile
 #: place; the README's site-file reference states the same numbers.
 LIMITS = {
     "water": {
+        # the profile's numbers (not stored on Water itself; the loader checks them)
+        "depth_m": (0.0, 11000.0, False, False, "m"),
+        "temperature_c": (-3.0, 40.0, False, False, "degC"),
+        "salinity_psu": (0.0, 45.0, False, False, "psu"),
+        "pressure_dbar": (0.0, 12000.0, False, False, "dbar"),
+        "sound_speed_mps": (1300.0, 1800.0, False, False, "m/s"),
+        "surface_speed_mps": (1300.0, 1800.0, False, False, "m/s"),
+        "axis_speed_mps": (1300.0, 1800.0, False, False, "m/s"),
+        "gradient_per_s": (-0.5, 0.5, False, False, "1/s"),
+        "axis_depth_m": (0.0, 11000.0, False, False, "m"),
+        "scale_depth_m": (10.0, 1.0e4, False, False, "m"),
+        "epsilon": (0.0, 0.05, False, False, ""),
         "ph": (6.5, 9.0, False, False, ""),
         "latitude_deg": (-90.0, 90.0, False, False, "deg"),
         "longitude_deg": (-360.0, 360.0, False, False, "deg"),
@@ -59,7 +71,19 @@ LIMITS = {
         "target_ber": (0.0, 0.5, True, True, ""),
         "margin_db": (0.0, 40.0, False, False, "dB"),
     },
+    # numbers typed on the command line that are not site keys (run control)
+    "run": {
+        "symbols": (100, 10_000_000, False, False, ""),
+        "max_errors": (1, 10_000_000, False, False, ""),
+        "workers": (0, 1024, False, False, ""),  # 0 or 1: a serial sweep
+        "chunk_ranges": (1, 100_000, False, False, ""),
+        "seed": (0, 2**63 - 1, False, False, ""),
+        "dynamic_range_db": (0.0, 200.0, True, False, "dB"),
+        "snr_db": (-30.0, 100.0, False, False, "dB"),
+    },
 }
+#: Keys of LIMITS["run"] that take whole numbers.
+INTEGER_LIMITS = ("symbols", "max_errors", "workers", "chunk_ranges", "seed")
 
 #: Deepest water any site may have, m (the deepest ocean trench is about 11 km).
 MAX_DEPTH_M = 11000.0
@@ -252,6 +276,8 @@ class Site:
     description: str = ""
     path: str | None = None
     text: str = ""
+    #: What varies at the site (:class:`aculink.site.variability.Variability`), or None.
+    variability: object = None
 
     def __post_init__(self):
         for section, kind in (("water", Water), ("seabed", Seabed), ("surface", Surface), ("noise", Noise),

@@ -145,6 +145,21 @@ def _speed_warnings(site) -> list[str]:
                                        longitude_deg=site.water.longitude_deg)
 
 
+def geometry_warnings(site) -> list[str]:
+    """Lines about a geometry that is legal but probably not what was meant.
+
+    A receiver closer to the source than the water is deep is almost always a range typed in
+    kilometres (the site file takes metres).
+    """
+    out = []
+    rx, bed = site.receiver, site.seabed
+    water = float(bed.depth_at(0.0))
+    if rx.range_m < water:
+        out.append(f"[receiver] range_m = {rx.range_m:g} m is shorter than the water is deep at the source "
+                   f"({water:g} m): ranges are in metres (did you mean {rx.range_m * 1000:g} m?)")
+    return out
+
+
 def _round(x, nd=2):
     return None if x is None else round(float(x), nd)
 
@@ -242,6 +257,7 @@ def summarize_site(site) -> dict:
         warnings.append("no temperature or salinity given: absorption assumes 10 degC and salinity 35")
     warnings += francois_garrison_validity_warnings(np.array([lo, hi]), bottom)
     warnings += _speed_warnings(site)
+    warnings += geometry_warnings(site)
 
     # noise
     n = site.noise

@@ -18,7 +18,7 @@ from aculink.constants import (
     PIERSON_MOSKOWITZ_BETA,
     WIND_19P5_OVER_10,
 )
-from aculink.errors import AculinkError, check_array
+from aculink.errors import AculinkError, check_array, check_range
 
 __all__ = [
     "surface_coherent_reflection",
@@ -26,6 +26,7 @@ __all__ = [
     "rms_wave_height_pierson_moskowitz",
     "significant_wave_height_pierson_moskowitz",
     "surface_vertical_velocity_rms",
+    "site_with_wind",
 ]
 
 #: Wind heights (m) whose conversion to 19.5 m is known here.
@@ -226,3 +227,29 @@ def surface_vertical_velocity_rms(wind_speed_mps, *, height_m=10.0):
     """
     u = _wind_19p5(wind_speed_mps, height_m)
     return np.sqrt(PIERSON_MOSKOWITZ_ALPHA * np.sqrt(np.pi / PIERSON_MOSKOWITZ_BETA) / 4.0) * u
+
+
+def site_with_wind(site, wind_speed_mps):
+    """A copy of ``site`` with the wind at 10 m set for both the surface and the noise.
+
+    The rms wave height follows the fully developed sea of the new wind
+    (:func:`rms_wave_height_pierson_moskowitz`, [PiersonMoskowitz1964]). ``None`` returns the
+    site unchanged.
+
+    Raises
+    ------
+    AculinkError
+        For a wind outside the site file's allowed range.
+    """
+    if wind_speed_mps is None:
+        return site
+    import dataclasses
+
+    from aculink.site.model import LIMITS
+
+    low, high, _, _, unit = LIMITS["surface"]["wind_speed_mps"]
+    w = check_range("wind speed", wind_speed_mps, low, high, unit=unit)
+    surface = dataclasses.replace(site.surface, wind_speed_mps=w,
+                                  rms_height_m=float(rms_wave_height_pierson_moskowitz(w)))
+    noise = dataclasses.replace(site.noise, wind_speed_mps=w)
+    return site.replace(surface=surface, noise=noise)

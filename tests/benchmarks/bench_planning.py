@@ -2,7 +2,7 @@
 
 Run from the project root:  python tests/benchmarks/bench_planning.py
 
-Targets (issue 6, 2 cores): plan table (24 ranges, all modulations and receivers, analytic, ray
+Targets (2 cores): plan table (24 ranges, all modulations and receivers, analytic, ray
 tracing included) under 5 s warm; 40-range x 20-depth sweep under 30 s warm; the 2-worker
 local cluster at least 1.5x faster than serial; memory that does not grow with the number of
 chunks written. Baselines measured in the same run: the table with one ray fan per range
@@ -12,6 +12,7 @@ serial sweep against the Dask one.
 
 from __future__ import annotations
 
+import gc
 import os
 import sys
 import tempfile
@@ -24,7 +25,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
 
 from aculink.planning import plan_rates, run_sweep  # noqa: E402
 from aculink.planning import checkpoint as ckpt_mod  # noqa: E402
-from aculink.modem import predict as modem_predict  # noqa: E402
+from aculink.modem.media import ChannelMedium  # noqa: E402
 from aculink.planning import search  # noqa: E402
 from aculink.planning.sweep import candidate_grid  # noqa: E402
 from aculink.site.bundled import bundled_site_path  # noqa: E402
@@ -74,13 +75,14 @@ def main():
         tmp = Path(tmp)
         run_sweep(site, SWEEP_RANGES[:4], SWEEP_DEPTHS[:4], tmp / "warm.nc", workers=0, quiet=True)
         rss = []
-        cache = []  # entries in the modem stage's bounded estimate cache (it holds channels)
+        cache = []  # live channel media: the modem's estimate caches, which live on the channels
         real_save = ckpt_mod.Checkpoint.save
 
         def save(self, index, arrays):
             out = real_save(self, index, arrays)
             rss.append(rss_mb())
-            cache.append(len(modem_predict._CACHE))
+            gc.collect()
+            cache.append(sum(isinstance(o, ChannelMedium) for o in gc.get_objects()))
             return out
 
         ckpt_mod.Checkpoint.save = save
@@ -93,8 +95,7 @@ def main():
         growth = (rss[-1] - rss[half]) / max(1, n_chunks - 1 - half)
         print(f"RSS after chunk 1: {rss[0]:.0f} MB, after chunk {half + 1}: {rss[half]:.0f} MB, after chunk "
               f"{n_chunks}: {rss[-1]:.0f} MB; growth over the second half {growth * 1024:.0f} kB/chunk; "
-              f"modem estimate cache {cache[0]} -> {cache[half]} -> {cache[-1]} entries (capped at "
-              f"{modem_predict._CACHE_SIZE})")
+              f"live channel media (the modem's per-channel caches) {cache[0]} -> {cache[half]} -> {cache[-1]}")
         t_dask_total, sd = timed(run_sweep, site, SWEEP_RANGES, SWEEP_DEPTHS, tmp / "dask.nc", workers=2, quiet=True)
         import xarray as xr
 

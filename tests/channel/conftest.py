@@ -1,6 +1,6 @@
 """Fixtures for the channel tests: Arrivals datasets built by hand from the image method.
 
-The image method for an isovelocity waveguide (REFERENCES.md section 6.3, exact): image sources
+The image method for an isovelocity waveguide ([Jensen2011], exact): image sources
 at depths 2nD + zs and 2nD - zs, path length L = sqrt(r^2 + (zr - z_img)^2), delay L / c,
 grazing angle atan(|zr - z_img| / r) at every bounce, amplitude (-1)^ns R_b^nb / L. The datasets
 follow the Arrivals contract of DEVELOPERS.md, so the channel tests do not depend on the ray

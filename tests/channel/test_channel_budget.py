@@ -28,11 +28,11 @@ def two_path_channel():
 
 
 def test_noise_band_level_is_the_wenz_integral(wenz_site, two_path_channel):
-    """Noise in 10-20 kHz for s = 0.5, w = 5 m/s is 83.25 dB re 1 uPa^2 (REFERENCES.md 3.1,
+    """Noise in 10-20 kHz for s = 0.5, w = 5 m/s is 83.25 dB re 1 uPa^2 ([Coates1990],
     computed from the Coates fits of the Wenz curves; +-0.01 dB)."""
     b = link_budget(wenz_site, two_path_channel)
     assert b.noise_band_db == pytest.approx(83.25, abs=0.01)
-    assert b.noise_psd_db(10e3) == pytest.approx(46.09, abs=0.01)  # REFERENCES.md 3.1 table
+    assert b.noise_psd_db(10e3) == pytest.approx(46.09, abs=0.01)  # [Coates1990] table
 
 
 def test_budget_terms_add_up(wenz_site, two_path_channel):

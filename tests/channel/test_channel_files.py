@@ -28,7 +28,7 @@ def test_csv_real_imag_with_band_comments(tmp_path):
 
 def test_csv_magnitude_phase_and_symbol_spaced_taps(tmp_path):
     """magnitude,phase_rad gives magnitude exp(j phase); tap,real,imag gives delay = tap / Rs
-    (Proakis test channel b, REFERENCES.md 8: taps 0.407, 0.815, 0.407 at 0, T, 2T)."""
+    (Proakis test channel b, [Salz1973]: taps 0.407, 0.815, 0.407 at 0, T, 2T)."""
     p = write(tmp_path, "mp.csv", "delay_s,magnitude,phase_rad\n0.001,2.0,1.5707963267948966\n")
     ch = load_channel_file(p, carrier_hz=10000.0, bandwidth_hz=4000.0)
     np.testing.assert_allclose(ch.gain[0, 0], 2j, atol=1e-15)

@@ -7,7 +7,7 @@ import pytest
 from scipy import signal
 
 from aculink.channel import Channel, apply_channel
-from aculink.channel.response import raised_cosine_pulse
+from aculink.channel.pulses import raised_cosine
 from aculink.errors import AculinkError
 
 from .conftest import empty_arrivals, image_arrivals
@@ -25,7 +25,7 @@ def test_single_path_at_integer_samples_is_delayed_scaled_copy():
     """A path of gain A and delay n/fs is a delay line: y[m] = A exp(-j 2 pi fc tau) x[m - n].
 
     Source: the baseband-equivalent multipath model (Proakis and Salehi 2008, ch. 13;
-    REFERENCES.md section 11) for one path and an in-band signal (the band taper is flat there).
+    [ProakisSalehi2008]) for one path and an in-band signal (the band taper is flat there).
     """
     fs, n = 12000.0, 37
     rng = np.random.default_rng(3)
@@ -66,8 +66,8 @@ def image_channel_multi(calm_site):
 def test_two_path_image_channel_taps_and_phase(calm_site):
     """Two-path (direct + surface image) channel: H(f) = sum A_p exp(-j 2 pi f tau_p) exactly, and
     the pulse-shaped taps h(t) = sum A_p exp(-j 2 pi fc tau_p) p(t - tau_p) with the raised-cosine
-    pulse. Sources: image method (REFERENCES.md 6.3, exact); baseband-equivalent model
-    (Proakis and Salehi 2008, ch. 13, REFERENCES.md 11); RC pulse formula (REFERENCES.md 11)."""
+    pulse. Sources: image method ([Jensen2011], exact); baseband-equivalent model
+    (Proakis and Salehi 2008, ch. 13, [ProakisSalehi2008]); RC pulse formula ([ProakisSalehi2008])."""
     arr = image_arrivals(depth_m=100.0, zs=30.0, zr=50.0, range_m=1000.0, n_images=0)
     ch = Channel.from_arrivals(arr, calm_site)
     assert ch.n_paths == 2
@@ -82,20 +82,20 @@ def test_two_path_image_channel_taps_and_phase(calm_site):
     rs, beta, sps = 4000.0, 0.35, 4
     taps, first = ch.symbol_taps(rs, beta, sps, trim=0.0)
     t = first + np.arange(taps.size) / (rs * sps)
-    expected = sum(a * np.exp(-2j * np.pi * FC * tau) * raised_cosine_pulse(t - tau, rs, beta)
+    expected = sum(a * np.exp(-2j * np.pi * FC * tau) * raised_cosine((t - tau) * rs, beta)
                    for a, tau in zip(amps, ch.delay_s))
     np.testing.assert_allclose(taps, expected, atol=2e-5 * np.abs(amps).max())
     # the tap nearest each path's delay carries the phase exp(-j 2 pi fc tau)
     for a, tau in zip(amps, ch.delay_s):
         k = int(np.argmin(np.abs(t - tau)))
-        ratio = taps[k] / (a * np.exp(-2j * np.pi * FC * tau) * raised_cosine_pulse(t[k] - tau, rs, beta))
+        ratio = taps[k] / (a * np.exp(-2j * np.pi * FC * tau) * raised_cosine((t[k] - tau) * rs, beta))
         assert abs(ratio - 1) < 0.02
 
 
 @pytest.mark.parametrize("beta,isi_table", [(0.25, 4.5e-4), (0.35, 1.8e-4), (0.5, 7.6e-5), (1.0, 1.9e-5)])
 def test_single_path_symbol_taps_match_truncation_isi_table(beta, isi_table):
     """A single path at tau = nT gives h[k] = A exp(-j 2 pi fc nT) delta[k - n] up to the RC
-    truncation ISI of REFERENCES.md section 11's table (computed: span 20 T, 16 sps)."""
+    truncation ISI of [ProakisSalehi2008]'s table (computed: span 20 T, 16 sps)."""
     rs = 4000.0
     n = 9
     a = 0.02 + 0.01j
@@ -120,7 +120,7 @@ def test_impulse_response_single_flat_path_sums_to_gain():
 def test_long_sparse_channel_has_thousands_of_taps():
     """A 1,500-path channel over 0.4 s gives a dense response of thousands of taps through the
     sparse evaluator, equal to the direct sum of the paths' closed-form pulses (RC pulse formula,
-    REFERENCES.md 11) at spot checks."""
+    [ProakisSalehi2008]) at spot checks."""
     rng = np.random.default_rng(5)
     delays = np.sort(rng.uniform(0.0, 0.4, 1500))
     gains = rng.standard_normal(1500) + 1j * rng.standard_normal(1500)
@@ -130,7 +130,7 @@ def test_long_sparse_channel_has_thousands_of_taps():
     assert taps.size > 1900
     t = first + np.arange(taps.size) / rs
     for k in rng.integers(0, taps.size, 5):
-        direct = np.sum(gains * np.exp(-2j * np.pi * FC * delays) * raised_cosine_pulse(t[k] - delays, rs, beta))
+        direct = np.sum(gains * np.exp(-2j * np.pi * FC * delays) * raised_cosine((t[k] - delays) * rs, beta))
         assert abs(taps[k] - direct) < 1e-3 * np.abs(gains).max()
 
 

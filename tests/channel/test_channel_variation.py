@@ -23,7 +23,7 @@ FC, B = 12000.0, 6000.0
 
 def test_doppler_factor_table_values():
     """a = v/c: 1.5 m/s horizontal at c = 1500 m/s gives 1e-3, 12 Hz at 12 kHz; 5 m/s gives
-    3.33e-3 (REFERENCES.md section 10 Doppler table, computed). A receiver moving away with
+    3.33e-3 ([Li2008] Doppler table, computed). A receiver moving away with
     the same speed cancels it; a steep ray sees v cos(theta)."""
     a = doppler_factors(0.0, 0.0, 1.5, 0.0, 1500.0, 1500.0)
     assert a == pytest.approx(1e-3, rel=1e-12) and a * 12000 == pytest.approx(12.0)
@@ -47,7 +47,7 @@ def test_from_arrivals_doppler_uses_platform_speeds(calm_site):
 
 def test_tone_through_doppler_path_is_shifted_by_a_fc():
     """A constant baseband tone (the carrier) through a path with Doppler factor a comes out at
-    a fc: 1.5 m/s at 12 kHz -> a = 1e-3 -> 12 Hz (REFERENCES.md section 10: baseband
+    a fc: 1.5 m/s at 12 kHz -> a = 1e-3 -> 12 Hz ([Li2008]: baseband
     s((1+a)t - tau) exp(j 2 pi a fc t))."""
     fs, a = 8000.0, 1e-3
     ch = Channel.from_taps([0.05], [1.0], FC, B, doppler=[a])
@@ -64,15 +64,15 @@ def test_tone_through_doppler_path_is_shifted_by_a_fc():
 
 def test_delay_drifts_by_a_per_second():
     """Pulses sent 1 s apart arrive 1/(1 + a) s apart: the delay tau(t) = tau - a t drifts by
-    a / (1 + a) ~ a per second (REFERENCES.md section 10, time scaling; derived)."""
+    a / (1 + a) ~ a per second ([Li2008], time scaling; derived)."""
     fs, a = 12000.0, 2e-3
     ch = Channel.from_taps([0.1], [1.0], FC, B, doppler=[a])
     n = int(3.2 * fs)
     t = np.arange(n) / fs
     rs = 2000.0
-    from aculink.channel.response import raised_cosine_pulse
+    from aculink.channel.pulses import raised_cosine
 
-    x = raised_cosine_pulse(t - 0.1, rs, 0.5) + raised_cosine_pulse(t - 1.1, rs, 0.5) + 0j
+    x = raised_cosine((t - 0.1) * rs, 0.5) + raised_cosine((t - 1.1) * rs, 0.5) + 0j
     y, start = apply_channel(ch, x, fs, return_start=True)
     ty = start + np.arange(y.size) / fs
     peaks = []
@@ -87,45 +87,56 @@ def test_delay_drifts_by_a_per_second():
     assert drift == pytest.approx(a / (1 + a), rel=0.02)
 
 
-def test_surface_gain_mean_returns_coherent_value():
-    """Energy bookkeeping: the factor exp(j phi) has unit modulus (the path keeps the Eckart power
-    of the arrivals) and its mean over realisations is the Eckart coherent factor chi (Gaussian
-    phase: E exp(j phi) = exp(-sigma_phi^2 / 2) = exp(-2 k^2 sigma^2 sin^2 theta); Eckart 1953,
-    REFERENCES.md 5.1)."""
+def test_scattered_gain_has_zero_mean_and_unit_power():
+    """Scattered sub-path gain z = (exp(j phi) - chi) / sqrt(1 - chi^2): zero mean and unit power
+    over realisations (Gaussian phase of variance Gamma^2 = 4 k^2 sigma^2 S: E exp(j phi) =
+    exp(-Gamma^2 / 2) = chi, the Eckart coherent factor; Eckart 1953, closed form); steady paths
+    get exactly 1."""
     motion = SurfaceMotion(rms_height_m=0.01, wind_speed_mps=5.0, sound_speed_mps=1500.0)
     sin2 = np.full(20000, 0.2)
     std = surface_phase_std(sin2, FC, motion)
     k = 2 * np.pi * FC / 1500.0
     assert std[0] == pytest.approx(2 * k * 0.01 * np.sqrt(0.2), rel=1e-12)
-    chi = np.exp(-2 * k * k * 0.01 ** 2 * 0.2)
-    f = surface_gain_factors(sin2, FC, motion, np.array([0.0, 3.7]), seed=11)
-    np.testing.assert_allclose(np.abs(f), 1.0, rtol=1e-12)
-    stderr = np.sqrt(1 - chi ** 2) / np.sqrt(sin2.size)
+    scattered = np.ones(sin2.size, bool)
+    scattered[:10] = False
+    f = surface_gain_factors(sin2, FC, motion, np.array([0.0, 3.7]), seed=11, scattered=scattered)
+    np.testing.assert_array_equal(f[:10], 1.0)
+    z = f[10:]
+    stderr = 1.0 / np.sqrt(z.shape[0])
     for col in range(2):
-        assert abs(f[:, col].mean() - chi) < 4 * stderr
+        assert abs(z[:, col].mean()) < 4 * stderr
+        assert np.mean(np.abs(z[:, col]) ** 2) == pytest.approx(1.0, abs=6 * stderr)
 
 
-def test_surface_doppler_spread_closed_form_and_physics():
-    """RMS surface Doppler spread 2 fc sqrt(S) v_rms / c: checked against the phase rate of the
-    synthesised process (numerical derivative) and v_rms against the PM spectrum's second
-    moment from aculink.site.surface (Pierson and Moskowitz 1964; 10% allowed for the
-    truncated spectral band of the synthesis; within-project cross-check)."""
-    from aculink.site.surface import surface_vertical_velocity_rms
-
-    motion = SurfaceMotion(rms_height_m=0.0854, wind_speed_mps=4.0, sound_speed_mps=1500.0)
-    from aculink.site.surface import rms_wave_height_pierson_moskowitz
+def test_scattered_doppler_spread_closed_form_and_physics():
+    """RMS Doppler width of the scattered gain, 2 fc sqrt(S) v_rms / (c sqrt(1 - exp(-Gamma^2)))
+    (second moment of the spectrum of exp(j phi) minus its coherent line; derived): checked
+    against the rate of change of the synthesised z(t) (numerical derivative), v_rms against the
+    PM spectrum's second moment from aculink.site.surface (Pierson and Moskowitz 1964; 10%
+    allowed for the truncated spectral band of the synthesis), and the smooth-surface limit
+    against the wave spectrum's rms frequency sqrt(m2 / m0) / (2 pi) (closed form)."""
+    from aculink.channel.variation import scattered_doppler_spread_hz
+    from aculink.site.surface import rms_wave_height_pierson_moskowitz, surface_vertical_velocity_rms
 
     motion = SurfaceMotion(float(rms_wave_height_pierson_moskowitz(4.0)), 4.0, 1500.0)
     v = motion.elevation_velocity_rms_mps()
     assert v == pytest.approx(float(surface_vertical_velocity_rms(4.0)), rel=0.10)
-    sin2 = np.full(400, 0.05)
-    spread = surface_doppler_spread_hz(sin2, FC, motion)
-    assert spread[0] == pytest.approx(2 * FC * np.sqrt(0.05) * v / 1500.0, rel=1e-12)
+    sin2 = np.full(4000, 0.002)
+    total = surface_doppler_spread_hz(sin2, FC, motion)
+    assert total[0] == pytest.approx(2 * FC * np.sqrt(0.002) * v / 1500.0, rel=1e-12)
+    gamma2 = surface_phase_std(sin2, FC, motion)[0] ** 2
+    spread = scattered_doppler_spread_hz(sin2, FC, motion)
+    assert spread[0] == pytest.approx(total[0] / np.sqrt(1 - np.exp(-gamma2)), rel=1e-12)
     dt = 1e-3
     t = np.array([10.0, 10.0 + dt])
-    f = surface_gain_factors(sin2, FC, motion, t, seed=4)
-    rate = np.angle(f[:, 1] / f[:, 0]) / dt / (2 * np.pi)
-    assert np.sqrt(np.mean(rate ** 2)) == pytest.approx(spread[0], rel=0.12)
+    f = surface_gain_factors(sin2, FC, motion, t, seed=4, scattered=np.ones(sin2.size, bool))
+    rate = np.abs(f[:, 1] - f[:, 0]) / dt / (2 * np.pi)
+    assert np.sqrt(np.mean(rate ** 2)) == pytest.approx(spread[0], rel=0.08)
+    # nearly smooth surface: the scattered part moves at the waves' rms frequency
+    calm = SurfaceMotion(1e-5, 4.0, 1500.0)
+    w, var = calm.spectrum_grid()
+    f_waves = np.sqrt(np.sum(w ** 2 * var) / np.sum(var)) / (2 * np.pi)
+    assert scattered_doppler_spread_hz(np.array([0.01]), FC, calm)[0] == pytest.approx(f_waves, rel=1e-4)
 
 
 def test_seeded_and_reproducible(shelf_site):
@@ -154,8 +165,9 @@ def _twin(channel, sig, fs, seed, t0, start, n_out):
 
 
 def test_numba_kernel_matches_slow_twin_within_one_percent():
-    """The numba sparse path loop (Farrow interpolation, control-grid gains) against the slow
-    numpy twin with exact per-sample delays and an analytic band-limited input (fast kernel vs
+    """The numba sparse path loop (Farrow interpolation, float32 arithmetic, control-grid
+    gains, scattered sub-paths with Doppler-spread random gains) against the slow numpy twin
+    with exact per-sample delays and gains and an analytic band-limited input (fast kernel vs
     twin, project rule; target 1%)."""
     fs, t0 = 12000.0, 0.3
     rng = np.random.default_rng(2)
@@ -172,9 +184,13 @@ def test_numba_kernel_matches_slow_twin_within_one_percent():
     ch = Channel.from_taps(delays, gains, FC, B, doppler=dop)
     from dataclasses import replace
 
+    from aculink.channel.scatter import add_surface_scatter
+
     sin2 = np.where(np.arange(12) % 2 == 0, 0.02, 0.0)
-    ch = replace(ch, surface_grazing_sin2_sum=sin2, surface_doppler_spread_hz=None,
-                 surface=SurfaceMotion(0.05, 6.0, 1500.0))
+    ch = replace(ch, surface_grazing_sin2_sum=sin2, surface_bounces=(sin2 > 0).astype(int),
+                 surface_doppler_spread_hz=None, surface=SurfaceMotion(0.05, 6.0, 1500.0))
+    ch = add_surface_scatter(ch)
+    assert ch.scattered.sum() == 24 and ch.is_time_varying
     x = sig(np.arange(n_in) / fs)
     y, start = apply_channel(ch, x, fs, seed=9, t0_s=t0, return_start=True)
     ref = _twin(ch, sig, fs, 9, t0, start, y.size)

@@ -1,4 +1,4 @@
-"""Adaptive equalizers and the PLL against textbook convergence facts (REFERENCES.md 9, 10a)."""
+"""Adaptive equalizers and the PLL against textbook convergence facts ([AlDhahirCioffi1995], [Rice2009])."""
 
 import numpy as np
 import pytest
@@ -26,9 +26,9 @@ def _run(kind, y, lab, start0, n_sym, n_ff, n_fb, n_train, *, lam=0.999, mu=0.5,
     args = (np.ascontiguousarray(y.real), np.ascontiguousarray(y.imag), start0, 1, n_sym, n_ff, fbd, lab, n_train,
             QPSK.points.real.copy(), QPSK.points.imag.copy())
     if kind == "rls":
-        _kernels.rls_dfe(*args, lam, delta, 0.0, 0.0, 0, 0.0, *out, wr, wi)
+        _kernels.rls_dfe(*args, lam, delta, 0.0, 0.0, 0, 0.0, *out, wr, wi, np.zeros(3, np.int64))
     else:
-        _kernels.nlms_dfe(*args, mu, 1e-6, 0.0, 0.0, 0, 0.0, *out, wr, wi)
+        _kernels.nlms_dfe(*args, mu, 1e-6, 0.0, 0.0, 0, 0.0, *out, wr, wi, np.zeros(3, np.int64))
     return out[3]
 
 
@@ -49,7 +49,7 @@ def test_rls_dfe_reaches_finite_mmse(h, nu, snr, rng):
 
 
 def test_rls_converges_in_about_twice_the_taps(rng):
-    """Haykin, Adaptive Filter Theory 4th ed. ch. 9 (memory; REFERENCES.md 9): with lambda = 1 and
+    """Haykin, Adaptive Filter Theory 4th ed. ch. 9 (memory; [AlDhahirCioffi1995]): with lambda = 1 and
     small delta, J(n) = J_min (1 + M/(n - M - 1)), i.e. within 3 dB of the final MSE after about
     2M samples. Ensemble of 200 runs, M = 13 taps on Proakis b at 20 dB: the 3-dB point lies in
     [1.5 M, 2.5 M]."""
@@ -66,7 +66,7 @@ def test_rls_converges_in_about_twice_the_taps(rng):
 
 @pytest.mark.parametrize("mu", [0.1, 0.5, 1.0, 1.5, 1.9])
 def test_nlms_stable_inside_0_2(mu, rng):
-    """Haykin ch. 6 / REFERENCES.md 9: NLMS is stable for 0 < mu < 2 (the MSE settles far below
+    """Haykin ch. 6 / [AlDhahirCioffi1995]: NLMS is stable for 0 < mu < 2 (the MSE settles far below
     the untrained level)."""
     y, lab = _frames(rng, PROAKIS_B, 25, 6000)
     err2 = _run("nlms", y, lab, 0, 6000, 11, 2, 6000, mu=mu)
@@ -89,12 +89,12 @@ def _pll_run(freq_cycles, k1, k2, n=6000):
     out = [np.zeros(n), np.zeros(n), np.zeros(n, np.int64), np.zeros(n), np.zeros(n)]
     _kernels.fixed_dfe(y.real.copy(), y.imag.copy(), 0, 1, n, 1, np.zeros(0, np.int64), lab, n,
                        QPSK.points.real.copy(), QPSK.points.imag.copy(), 1.0, k1, k2, 0, 0.0, *out,
-                       np.ones(1), np.zeros(1))
+                       np.ones(1), np.zeros(1), np.zeros(3, np.int64))
     return np.angle(np.exp(1j * (ph - out[4])))
 
 
 def test_pll_tracks_frequency_offset_without_steady_error():
-    """REFERENCES.md 10a: a type-2 (second-order, with integrator) loop tracks a constant frequency
+    """[Rice2009]: a type-2 (second-order, with integrator) loop tracks a constant frequency
     offset (a phase ramp) with zero steady-state phase error; a type-1 loop (K2 = 0) keeps the
     error 2 pi f / K1 (control theory, Gardner, Phaselock Techniques, from memory)."""
     k1, k2 = pll_gains(0.01)

@@ -1,4 +1,5 @@
-"""Equalizer SNR bounds, finite-length MMSE-DFE and water-filling against REFERENCES.md 8, 9, 12."""
+"""Equalizer SNR bounds, finite-length MMSE-DFE and water-filling against published equations and computed check values (Salz 1973; Cioffi et al.
+1995; Al-Dhahir and Cioffi 1995; Hirt and Massey 1988)."""
 
 import numpy as np
 import pytest
@@ -20,7 +21,7 @@ def db(x):
     (0.9, 20, [22.5768, 12.7875, 14.2987, 14.1342, 20.0000, 20.1892, 20.1475]),
 ])
 def test_two_tap_closed_forms(rho, snr, row):
-    """REFERENCES.md 8 two-tap table [computed, derived closed forms]; Salz 1973, Cioffi et al.
+    """Two-tap closed forms (derived from Salz 1973 and Cioffi et al.
     1995. Tolerance 1e-4 dB (table precision)."""
     b = equalizer_bounds(folded_snr_from_taps([1.0, rho], 10 ** (snr / 10)))
     got = [b.mfb, b.zf_le, b.mmse_le_biased, b.mmse_le, b.zf_dfe, b.mmse_dfe_biased, b.mmse_dfe]
@@ -32,7 +33,7 @@ def test_two_tap_closed_forms(rho, snr, row):
 
 
 def test_proakis_spectral_facts():
-    """REFERENCES.md 8 [computed]: ZF-DFE loss (geometric mean of |H|^2) b -7.3776 dB, c -12.2245 dB."""
+    """Proakis 2001 section 10.2 channels, computed: ZF-DFE loss (geometric mean of |H|^2) b -7.3776 dB, c -12.2245 dB."""
     for h, ref in ((PROAKIS_B, -7.3776), (PROAKIS_C, -12.2245)):
         b = equalizer_bounds(folded_snr_from_taps(h, 1.0))
         assert db(b.zf_dfe) == pytest.approx(ref, abs=2e-3)
@@ -42,7 +43,7 @@ def test_proakis_spectral_facts():
 @given(st.lists(st.complex_numbers(max_magnitude=2, allow_nan=False, allow_infinity=False), min_size=1, max_size=6),
        st.floats(-5, 30))
 def test_ordering_invariants(taps, snr_db):
-    """REFERENCES.md 8 (AM-GM-HM): ZF-LE <= LE,U <= DFE,U <= MFB, ZF-LE <= ZF-DFE <= DFE,U, and
+    """AM-GM-HM inequalities (Cioffi et al. 1995): ZF-LE <= LE,U <= DFE,U <= MFB, ZF-LE <= ZF-DFE <= DFE,U, and
     the canonical identity log2(1 + SNR_DFE,U) = mean log2(1 + gS) (Cioffi et al. 1995);
     water-filling capacity >= the flat-input information rate (Hirt and Massey 1988)."""
     h = np.array(taps)
@@ -59,7 +60,7 @@ def test_ordering_invariants(taps, snr_db):
     assert b.capacity_bits >= b.flat_information_bits - 1e-9
 
 
-# REFERENCES.md 9 finite-length table [computed; Al-Dhahir and Cioffi 1995], MSE in dB.
+# Finite-length MSE table (computed from the design of Al-Dhahir and Cioffi 1995), in dB.
 FINITE = {
     ("b", 10): {3: (-7.694, -4.425), 11: (-7.772, -4.730), 31: (-7.772, -4.732)},
     ("b", 20): {3: (-14.370, -6.499), 11: (-15.276, -7.257), 31: (-15.281, -7.460)},
@@ -72,7 +73,7 @@ FINITE = {
 
 @pytest.mark.parametrize("key", list(FINITE))
 def test_finite_length_mmse_table(key):
-    """REFERENCES.md 9 table (Al-Dhahir and Cioffi 1995 design, minimum over the decision delay),
+    """Computed table (Al-Dhahir and Cioffi 1995 design, minimum over the decision delay),
     tolerance 0.005 dB; Nb = nu for the DFE, Nb = 0 for the LE."""
     name, snr = key
     h, nu = (PROAKIS_B, 2) if name == "b" else (PROAKIS_C, 4)
@@ -85,7 +86,7 @@ def test_finite_length_mmse_table(key):
 
 
 def test_finite_converges_to_salz_and_le_31_unbiased():
-    """REFERENCES.md 9: as Nf grows (Nb = nu, Delta = Nf - 1) the finite MMSE reaches Salz's value;
+    """Al-Dhahir and Cioffi 1995: as Nf grows (Nb = nu, Delta = Nf - 1) the finite MMSE reaches Salz's value;
     the 31-tap MMSE-LE unbiased SNR on b is 2.951 / 6.601 / 9.607 dB at 10 / 20 / 30 dB."""
     for snr, le_u in ((10, 2.951), (20, 6.601), (30, 9.607)):
         inf = equalizer_bounds(folded_snr_from_taps(PROAKIS_B, 10 ** (snr / 10)))
@@ -106,9 +107,36 @@ def test_feedback_taps_cancel_postcursors():
 
 
 def test_water_filling_worked_example():
-    """REFERENCES.md 12 worked example [published]: three 1 MHz subchannels with gamma = 10, 40, 90
+    """Water-filling worked example (parallel Gaussian channels, closed form of Cover and Thomas
+    2006 section 9.4; the figures are a textbook exercise, from memory): three 1 MHz subchannels with gamma = 10, 40, 90
     (S = 10 mW, N0 = 1e-9, H = 1, 2, 3): C = 10.93 Mbit/s, power fractions 0.2787, 0.3537, 0.3676."""
     gamma = np.array([10.0, 40.0, 90.0]) / 3  # per-subchannel SNR if power were split evenly
     bits, p = water_filling(gamma)
     assert 3 * bits == pytest.approx(10.93, abs=0.01)
     np.testing.assert_allclose(p / p.sum(), [0.2787, 0.3537, 0.3676], atol=1e-4)
+
+
+def test_design_with_singular_band_limited_noise(monkeypatch):
+    """Regression (the reviewer's 'noise covariance is not positive definite', aculink link on a
+    bundled site): a T/2 raised-cosine noise autocorrelation has an empty band between
+    (1 + beta) Rs/2 and Rs (Proakis 2001 eq. 9.2-26), so its Toeplitz matrix is singular and a
+    rounding-sized error (here 1e-9 of the power at lag 0) makes it indefinite (smallest
+    eigenvalue < 0 by numpy). With a band-limited response the unloaded design fails; the
+    loaded one exists with 0 < MMSE < Es (Al-Dhahir and Cioffi 1995)."""
+    import scipy.linalg
+
+    from aculink.errors import AculinkError
+    from aculink.modem import analytic
+    from aculink.modem.pulses import raised_cosine
+
+    t = np.arange(129) / 2 - 10.0  # T/2 samples of a band-limited (raised-cosine) two-path response
+    q = raised_cosine(t, 0.25) + 0.5j * raised_cosine(t - 7.3, 0.25)
+    acf = 0.03 * raised_cosine(np.arange(64) / 2, 0.25)
+    acf[0] -= 0.03e-9
+    assert np.linalg.eigvalsh(scipy.linalg.toeplitz(acf)).min() < 0
+    d = mmse_dfe_design(q, 64, 0, stride=2, noise_acf=acf, starts=range(-40, 21, 4))
+    assert np.isfinite(d.snr) and d.snr > 0 and 0.0 < d.bias < 1.0
+    monkeypatch.setattr(analytic, "_LOADING_LADDER", (0.0,))
+    monkeypatch.setattr(analytic, "_CONDITION_FLOOR", 0.0)
+    with pytest.raises(AculinkError, match="noise autocorrelation"):
+        mmse_dfe_design(q, 64, 0, stride=2, noise_acf=acf, starts=range(-40, 21, 4))

@@ -13,7 +13,7 @@ def db(x):
 
 
 def test_bpsk_ber_table():
-    """REFERENCES.md 7 table [computed; Proakis 2001 section 5.2 formula Q(sqrt(2 Eb/N0))]."""
+    """Table computed from Proakis 2001 section 5.2, Pb = Q(sqrt(2 Eb/N0))."""
     ebn0 = [0, 2, 4, 6, 7, 8, 9, 9.6, 10, 12]
     ref = [7.8650e-02, 3.7506e-02, 1.2501e-02, 2.3883e-03, 7.7267e-04, 1.9091e-04, 3.3627e-05,
            9.7362e-06, 3.8721e-06, 9.0060e-09]
@@ -22,14 +22,14 @@ def test_bpsk_ber_table():
 
 
 def test_psk_symbol_error_tables():
-    """REFERENCES.md 7 table: QPSK and 8-PSK exact Ps (Craig 1991 / Proakis 2001 5.2-7)."""
+    """Computed table: QPSK and 8-PSK exact Ps (Craig 1991 / Proakis 2001 5.2-7)."""
     esn0 = db([5, 10, 15, 20])
     np.testing.assert_allclose(symbol_error_rate("qpsk", esn0), [7.3938e-02, 1.5648e-03, 1.8722e-08, 1.5240e-23], rtol=1e-4)
     np.testing.assert_allclose(symbol_error_rate("8psk", esn0), [3.3523e-01, 8.7005e-02, 2.3395e-03, 6.2338e-08], rtol=1e-4)
 
 
 def test_qam_tables():
-    """REFERENCES.md 7 tables: square QAM Ps (Proakis 5.2-9) and exact Gray Pb (Cho and Yoon 2002)."""
+    """Computed tables: square QAM Ps (Proakis 5.2-9) and exact Gray Pb (Cho and Yoon 2002)."""
     esn0 = db([10, 15, 20, 25])
     np.testing.assert_allclose(symbol_error_rate("16qam", esn0), [2.2203e-01, 1.7782e-02, 1.1616e-05, 2.7372e-15], rtol=1e-4)
     np.testing.assert_allclose(symbol_error_rate("64qam", esn0), [6.7383e-01, 3.4762e-01, 5.0270e-02, 1.8240e-04], rtol=1e-4)
@@ -60,7 +60,7 @@ def test_constellations_unit_energy_and_gray(name):
 @pytest.mark.parametrize("beta,h0,hq", [(0.25, 1.068310, -0.064237), (0.35, 1.095634, 0.260603),
                                         (0.5, 1.136620, 0.578632), (1.0, 1.273240, 1.000000)])
 def test_rrc_check_values(beta, h0, hq):
-    """REFERENCES.md 11 [computed from the published closed form]: h(0), h(T/4 beta), removable
+    """Computed from the published RRC closed form (Proakis and Salehi 2002, section 8.3): h(0), h(T/4 beta), removable
     singularities continuous to 1e-6, unit energy, RRC*RRC = raised cosine (peak 1)."""
     assert rrc_impulse(np.array([0.0]), beta)[0] == pytest.approx(h0, abs=1e-6)
     t = 1 / (4 * beta)
@@ -76,7 +76,7 @@ def test_rrc_check_values(beta, h0, hq):
 
 
 def test_pll_gain_check_value():
-    """REFERENCES.md 10a [computed from Rice 2009, from memory]: zeta 0.7071, BnT 0.01."""
+    """Computed from Rice 2009 appendix C (from memory): zeta 0.7071, BnT 0.01."""
     k1, k2 = pll_gains(0.01, 0.7071)
     assert k1 == pytest.approx(0.026313, rel=1e-4)
     assert k2 == pytest.approx(3.5085e-4, rel=1e-4)

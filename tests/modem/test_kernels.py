@@ -27,11 +27,11 @@ def _run(kind, y, start0, stride, n_sym, n_ff, fbd, train, pts, **kw):
             pts.real.copy(), pts.imag.copy())
     k1, k2, ps = kw["k1"], kw["k2"], kw["pll_start"]
     if kind == "rls":
-        _kernels.rls_dfe(*args, kw["lam"], kw["delta"], k1, k2, ps, 0.0, *out, wr, wi)
+        _kernels.rls_dfe(*args, kw["lam"], kw["delta"], k1, k2, ps, 0.0, *out, wr, wi, np.zeros(3, np.int64))
     elif kind == "nlms":
-        _kernels.nlms_dfe(*args, kw["mu"], 1e-6, k1, k2, ps, 0.0, *out, wr, wi)
+        _kernels.nlms_dfe(*args, kw["mu"], 1e-6, k1, k2, ps, 0.0, *out, wr, wi, np.zeros(3, np.int64))
     else:
-        _kernels.fixed_dfe(*args, kw["scale"], k1, k2, ps, 0.0, *out, wr, wi)
+        _kernels.fixed_dfe(*args, kw["scale"], k1, k2, ps, 0.0, *out, wr, wi, np.zeros(3, np.int64))
     return out[0] + 1j * out[1], out[2], wr + 1j * wi
 
 
@@ -69,7 +69,7 @@ def test_rls_long_run_stays_hermitian_and_finite(rng):
     out = [np.zeros(n_sym), np.zeros(n_sym), np.zeros(n_sym, np.int64), np.zeros(n_sym), np.zeros(n_sym)]
     wr, wi = np.zeros(n), np.zeros(n)
     restarts = _kernels.rls_dfe(y.real.copy(), y.imag.copy(), 0, 1, n_sym, 8, fbd, lab[:n_sym].astype(np.int64),
-                                n_sym, pts.real.copy(), pts.imag.copy(), 0.98, 1e-2, 0.0, 0.0, 0, 0.0, *out, wr, wi)
+                                n_sym, pts.real.copy(), pts.imag.copy(), 0.98, 1e-2, 0.0, 0.0, 0, 0.0, *out, wr, wi, np.zeros(3, np.int64))
     assert restarts == 0
     assert np.all(np.isfinite(out[3]))
     assert np.mean(out[3][-5000:]) < 2 * np.mean(out[3][5000:10000])

@@ -62,7 +62,7 @@ def test_cli_plot(tmp_path, capsys):
 
 def test_channel_from_symbol_taps_matches_tap_list():
     """Consistency with the channel stage: a Channel built from symbol-spaced taps
-    (Channel.from_taps; REFERENCES.md 11: a path at tau = nT gives h[k] = A delta[k - n] after
+    (Channel.from_taps; [ProakisSalehi2008]: a path at tau = nT gives h[k] = A delta[k - n] after
     the raised cosine) predicts the same MMSE-DFE as the tap list, within 0.3 dB once the band SNR
     (received power over noise in B, with the power spread evenly over B: mean |H|^2 over B) is
     converted to the tap list's Es/sigma^2 = band SNR (B / Rs) sum|h|^2 / mean_B |H|^2."""

@@ -8,13 +8,13 @@ from aculink.modem import MODULATIONS, bit_error_rate, clopper_pearson, predict_
 
 from .conftest import PROAKIS_B, PROAKIS_C
 
-#: Es/N0 (dB) giving a BER near 1e-2 for each modulation (REFERENCES.md 7 tables).
+#: Es/N0 (dB) giving a BER near 1e-2 for each modulation ([Proakis2001] tables).
 AWGN_POINTS = {"bpsk": 4.0, "qpsk": 7.0, "8psk": 11.0, "16qam": 14.0, "64qam": 20.0}
 
 
 @pytest.mark.parametrize("mod", list(MODULATIONS))
 def test_awgn_ber_matches_closed_form(mod):
-    """Proakis 2001 sections 5.2-7 / 5.2-9 (REFERENCES.md 7): over a one-tap channel in white
+    """Proakis 2001 sections 5.2-7 / 5.2-9 ([Proakis2001]): over a one-tap channel in white
     noise the simulated Gray BER's 99 % Clopper-Pearson interval (Clopper and Pearson 1934)
     contains the closed form (receiver 'none': matched filter, preamble gain/phase, PLL). The
     preamble is 512 symbols so that the data-aided gain estimate costs 1 + 1/N = 0.01 dB
@@ -38,7 +38,7 @@ def test_clopper_pearson_reference_values():
 
 @pytest.mark.parametrize("h", [PROAKIS_B, PROAKIS_C], ids=["b", "c"])
 def test_proakis_linear_poor_dfe_much_better(h):
-    """Proakis 2001 sections 10.2-3 and 10.3 (REFERENCES.md 8, textbook result): on channels b and c
+    """Proakis 2001 sections 10.2-3 and 10.3 ([Salz1973], textbook result): on channels b and c
     a linear equalizer does poorly and a DFE much better. At 20 dB the adaptive DFE's measured
     SNR beats the adaptive linear equalizer's by more than 5 dB and its BER is lower."""
     kw = dict(symbol_rate_baud=1000, modulation="qpsk", snr_db=20, n_symbols=8000, max_errors=10 ** 6, seed=2)
@@ -72,7 +72,7 @@ def test_same_seed_same_result():
 
 @pytest.mark.slow
 def test_doppler_receiver_locks_and_meets_static_ber():
-    """REFERENCES.md 10 (v = 1.5 m/s -> a = 1e-3, 12 Hz at 12 kHz; the wideband model of Li et al.
+    """[Li2008] (v = 1.5 m/s -> a = 1e-3, 12 Hz at 12 kHz; the wideband model of Li et al.
     2008): with the time scale applied the front end estimates it within 5e-5 and the DFE's BER
     lies inside the no-motion 95 % interval (or below it)."""
     h = [1.0, 0, 0.4j, 0, -0.25]
@@ -103,7 +103,7 @@ def test_bad_input_one_line(kwargs, match):
 
 
 def test_rate_above_band_rejected():
-    """REFERENCES.md 11: the occupied band is Rs (1 + beta); above the channel's band is an error."""
+    """[ProakisSalehi2008]: the occupied band is Rs (1 + beta); above the channel's band is an error."""
     from aculink.channel import Channel
 
     ch = Channel.from_taps([0.0, 1e-3], [1.0, 0.5], 12000.0, 4000.0)

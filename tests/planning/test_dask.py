@@ -105,6 +105,23 @@ def test_unreachable_scheduler_is_one_line_within_timeout(serial, tmp_path):
         run_sweep(site, RANGES, DEPTHS, tmp_path / "u.nc", scheduler=f"tcp://127.0.0.1:{port}", **OPTS)
     assert time.monotonic() - start < 15
     assert "\n" not in str(info.value)
+    assert not (tmp_path / "u.nc.parts").exists(), "a refused sweep must leave nothing behind"
+    # so the corrected command runs at once
+    got = run_sweep(site, RANGES, DEPTHS, tmp_path / "u.nc", workers=0, **OPTS)
+    xr.testing.assert_identical(got, serial[1])
+
+
+def test_local_cluster_takes_over_from_the_caller():
+    """While the local cluster starts, the calling process runs tasks; then the workers take the
+    rest; every task's result arrives exactly once (the runner's contract, no outside source)."""
+    import runner_tasks
+    from aculink.planning.dask_runner import run_tasks
+
+    got = {}
+    run_tasks(runner_tasks.where, os.getpid(), list(range(60)), got.__setitem__, workers=2)
+    assert sorted(got) == list(range(60))
+    pids = set(got.values())
+    assert any(p != os.getpid() for p in pids), "the workers never took over"
 
 
 def test_cli_sweep_through_scheduler_equals_serial(scheduler, tmp_path, capsys):

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from pathlib import Path
+
 import numpy as np
 import pytest
 from scipy.special import erfc
@@ -89,3 +91,69 @@ def test_receiver_choice():
     assert search.resolve_receivers("dfe", ("none", "dfe")) == ("dfe",)
     with pytest.raises(AculinkError, match="did you mean 'dfe'"):
         search.resolve_receivers("dfee", ("none", "dfe"))
+
+
+# ---------------------------------------------------------------------------------------------
+# The real-stage evaluator against its slow twin
+# ---------------------------------------------------------------------------------------------
+
+def _loop_evaluate(site, ranges, depths, grid, target_ber, margin_db):
+    """The slow, obviously correct twin of ``search.evaluate_block``: every candidate through
+    ``predict_link`` one at a time, nothing skipped, and the channel stage's full statistics."""
+    from aculink.channel import Channel, link_budget
+    from aculink.modem import predict_link
+    from aculink.propagation import find_arrivals
+
+    out = search.empty_block(len(ranges), len(depths), grid)
+    out["snr_required_db"] = search.modem_required_snr_db(grid.modulations, target_ber)
+    arrivals = find_arrivals(site, ranges, depths, freq_hz=search.band_frequencies(site))
+    for i, r in enumerate(ranges):
+        for j, z in enumerate(depths):
+            channel = Channel.from_arrivals(arrivals, site, range_m=r, depth_m=z)
+            budget = link_budget(site.with_geometry(range_m=r, depth_m=z), channel)
+            out["snr_band_db"][i, j] = float(budget.snr_band_db)
+            out["tl_db"][i, j] = float(budget.tl_db)
+            out["spread_90_s"][i, j] = float(channel.statistics()["spread_90_s"])
+            for a, rx in enumerate(grid.receivers):
+                for b, rs in enumerate(grid.symbol_rates_baud):
+                    for c, mod in enumerate(grid.modulations):
+                        p = predict_link(channel, budget, rs, mod, rx, rolloff=site.modem.rolloff)
+                        out["snr_out_db"][i, j, a, b, c] = p.snr_out_db
+                        out["ber_predicted"][i, j, a, b, c] = p.ber_predicted
+                        out["net_bit_rate_bps"][i, j, a, b, c] = p.net_bit_rate_bps
+    return out
+
+
+@pytest.mark.slow
+def test_fast_evaluator_equals_the_candidate_loop():
+    """The exact skip rule and the 90% spread computed alone give the same choice at every
+    position, and the same values for every candidate evaluated, as the straightforward loop
+    over every candidate with the channel stage's full statistics (fast code against its slow
+    twin)."""
+    from aculink.site.loader import load_site
+    from aculink.site.model import Surface
+    from aculink.planning.sweep import candidate_grid
+
+    site = load_site(Path(__file__).with_name("isovelocity_silt.toml"))
+    site = site.replace(surface=Surface(wind_speed_mps=6.0, rms_height_m=0.3))  # a rough sea too
+    grid = candidate_grid(site)
+    ranges, depths = np.array([600.0, 3000.0, 9000.0]), np.array([25.0, 80.0])
+    tb, md = site.modem.target_ber, site.modem.margin_db
+    fast = search.evaluate_block(site, ranges, depths, grid, tb, md)
+    slow = _loop_evaluate(site, ranges, depths, grid, tb, md)
+    assert np.all(fast["error"] == "")
+    for key in search.POINT_FIELDS + ("snr_required_db",):
+        np.testing.assert_array_equal(fast[key], slow[key], err_msg=key)
+    done = np.isfinite(fast["snr_out_db"])
+    assert 0 < done.sum() < done.size, "the skip rule should have skipped something here"
+    np.testing.assert_array_equal(fast["snr_out_db"][done], slow["snr_out_db"][done])
+    np.testing.assert_array_equal(fast["net_bit_rate_bps"][done], slow["net_bit_rate_bps"][done])
+    np.testing.assert_array_equal(fast["ber_predicted"][done], slow["ber_predicted"][done])
+    a = search.summarise_block(fast, grid, target_ber=tb, margin_db=md)
+    b = search.summarise_block(slow, grid, target_ber=tb, margin_db=md)
+    for key in ("best_rate_bps", "best_symbol_rate_baud", "best_snr_out_db", "best_margin_db",
+                "rate_by_receiver_bps"):
+        np.testing.assert_array_equal(a[key], b[key], err_msg=key)
+    for key in ("best_modulation", "best_receiver"):
+        assert a[key].tolist() == b[key].tolist(), key
+    assert (a["best_rate_bps"] > 0).any(), "the test needs at least one workable position"

@@ -178,3 +178,123 @@ def test_unwritable_output_folder(flat_site, tmp_path):
     for out in (tmp_path / "missing" / "x.nc", tmp_path / "file" / "x.nc"):
         with pytest.raises(AculinkError, match="output folder"):
             sweep(flat_site, out)
+
+
+# ---------------------------------------------------------------------------------------------
+# Options are checked before anything is written; the one rule of --resume and --overwrite
+# ---------------------------------------------------------------------------------------------
+
+@pytest.mark.parametrize("bad, match", [
+    (dict(workers=-1), "workers = -1: allowed range is"),
+    (dict(workers=2.5), "workers = 2.5"),
+    (dict(workers=None, scheduler="not an address"), "scheduler = 'not an address'"),
+    (dict(workers=2, scheduler="tcp://127.0.0.1:1"), "workers and scheduler together"),
+    (dict(resume=True, overwrite=True), "--resume and --overwrite together"),
+])
+def test_bad_option_leaves_nothing_on_disk(flat_site, tmp_path, bad, match):
+    """A sweep refused for an option writes nothing, so the corrected command then runs (the
+    planner's documented contract, no outside source)."""
+    out = tmp_path / "opt.nc"
+    with pytest.raises(AculinkError, match=match) as info:
+        sweep(flat_site, out, **bad)
+    assert "\n" not in str(info.value)
+    assert not parts_folder(out).exists() and not out.exists()
+    ds = sweep(flat_site, out)
+    assert out.exists() and ds.sizes["range"] == len(RANGES)
+
+
+def test_resume_finishes_a_sweep_started_with_overwrite(flat_site, tmp_path, monkeypatch):
+    """--overwrite over an existing file, interrupted; then --resume alone (the message's advice)
+    finishes it and replaces the file, computing only the missing chunks (regression against an
+    uninterrupted run)."""
+    kw = {"evaluate": synthetic_eval.evaluate_interruptible}
+    ref = sweep(flat_site, tmp_path / "ref.nc", **kw)
+    out = tmp_path / "old.nc"
+    out.write_text("an earlier result")
+    monkeypatch.setattr(synthetic_eval, "INTERRUPT_AT_RANGE_M", 4000.0)
+    with pytest.raises(KeyboardInterrupt):
+        sweep(flat_site, out, overwrite=True, **kw)
+    assert out.read_text() == "an earlier result"
+    computed = []
+    real = sweep_mod.compute_chunk
+    monkeypatch.setattr(sweep_mod, "compute_chunk", lambda job, c: computed.append(c.index) or real(job, c))
+    got = sweep(flat_site, out, resume=True, **kw)
+    assert computed == [2]
+    xr.testing.assert_identical(got, ref)
+    xr.testing.assert_identical(xr.open_dataset(out).load(), ref)
+
+
+def test_resume_and_overwrite_rule(flat_site, tmp_path, monkeypatch):
+    """--resume with --overwrite is refused (they mean opposite things); --overwrite alone
+    starts over; a resumed sweep started without --overwrite never replaces a file that has
+    appeared meanwhile (the planner's documented rule, no outside source)."""
+    kw = {"evaluate": synthetic_eval.evaluate_interruptible}
+    out = tmp_path / "r.nc"
+    monkeypatch.setattr(synthetic_eval, "INTERRUPT_AT_RANGE_M", 4000.0)
+    with pytest.raises(KeyboardInterrupt):
+        sweep(flat_site, out, **kw)
+    with pytest.raises(AculinkError, match="choose one"):
+        sweep(flat_site, out, resume=True, overwrite=True, **kw)
+    assert len(list(parts_folder(out).glob("chunk-*.npz"))) == 2
+    out.write_text("someone else's file")
+    with pytest.raises(AculinkError, match="started without --overwrite"):
+        sweep(flat_site, out, resume=True, **kw)
+    assert out.read_text() == "someone else's file"
+    computed = []
+    real = sweep_mod.compute_chunk
+    monkeypatch.setattr(sweep_mod, "compute_chunk", lambda job, c: computed.append(c.index) or real(job, c))
+    sweep(flat_site, out, overwrite=True, **kw)
+    assert computed == [0, 1, 2] and not parts_folder(out).exists()
+
+
+def test_default_workers_rule():
+    """The default runs serially unless the estimated saving repays a local cluster's start
+    with the stated margin (the planner's own rule: n_points POINT_S (1 - 1/n) >= START_MARGIN
+    LOCAL_START_S; common practice, no source)."""
+    from aculink.planning import dask_runner as dr
+
+    need = dr.START_MARGIN * dr.LOCAL_START_S / (dr.POINT_S * 0.5)
+    assert dr.local_workers_for(int(need) - 1, 100, cores=2) == 1
+    assert dr.local_workers_for(int(np.ceil(need)), 100, cores=2) == 2
+    assert dr.local_workers_for(10_000, 1, cores=2) == 1          # one task: nothing to share
+    assert dr.local_workers_for(10_000, 100, cores=1) == 1
+    assert dr.local_workers_for(10_000, 3, cores=8) == 3          # never more workers than tasks
+
+
+def test_small_default_sweep_starts_no_cluster(flat_site, tmp_path, monkeypatch):
+    """A sweep too small to repay a cluster runs serially by default (no Dask cluster started)."""
+    from aculink.planning import dask_runner as dr
+
+    def refuse(n):
+        raise AssertionError("a local cluster was started for a small sweep")
+
+    monkeypatch.setattr(dr, "_local_client", refuse)
+    ds = sweep(flat_site, tmp_path / "small.nc", workers=None)
+    assert ds.sizes["range"] == len(RANGES)
+
+
+def test_cli_interrupt_message_and_resume_after_overwrite(tmp_path, monkeypatch, capsys):
+    """`aculink sweep --overwrite` interrupted says to rerun with --resume in place of
+    --overwrite, and that command finishes the sweep over the old file (real chain, tiny grid)."""
+    from aculink.cli import main
+
+    site_file = Path(__file__).with_name("isovelocity_silt.toml")
+    out = tmp_path / "c.nc"
+    out.write_text("old")
+    base = ["sweep", str(site_file), "--ranges-m", "1000,2000", "--depths-m", "30", "--receiver", "none",
+            "--chunk-ranges", "1", "--workers", "0", "--quiet", "-o", str(out)]
+    real = sweep_mod.compute_chunk
+
+    def interrupted(job, chunk):
+        if chunk.index == 1:
+            raise KeyboardInterrupt
+        return real(job, chunk)
+
+    monkeypatch.setattr(sweep_mod, "compute_chunk", interrupted)
+    assert main(base + ["--overwrite"]) == 130
+    err = capsys.readouterr().err
+    assert "rerun the same command with --resume in place of --overwrite" in err
+    monkeypatch.setattr(sweep_mod, "compute_chunk", real)
+    assert main(base + ["--resume"]) == 0
+    capsys.readouterr()
+    assert xr.open_dataset(out).sizes["range"] == 2

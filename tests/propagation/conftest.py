@@ -35,7 +35,7 @@ def build_site(depth_m=None, speed_mps=None, *, seabed_range_m=(0.0,), seabed_de
 
 
 def munk_profile(max_depth_m=5000.0, step_m=10.0):
-    """Munk (1974) canonical profile tabulated on ``step_m`` nodes (REFERENCES 6.1)."""
+    """Munk (1974) canonical profile tabulated on ``step_m`` nodes ([Munk1974])."""
     z = np.arange(0.0, max_depth_m + step_m / 2, step_m)
     eta = 2.0 * (z - 1300.0) / 1300.0
     return z, 1500.0 * (1.0 + 0.00737 * (eta - 1.0 + np.exp(-eta)))

@@ -15,7 +15,7 @@ D, ZS, ZR, C = 100.0, 30.0, 70.0, 1500.0
 
 
 def image_paths(r, bottom, max_bounces):
-    """Image sources of an isovelocity waveguide (REFERENCES 6.3, exact): delay, ns, nb, amplitude."""
+    """Image sources of an isovelocity waveguide ([Jensen2011], exact): delay, ns, nb, amplitude."""
     out = []
     for n in range(-20, 21):
         for sign in (1, -1):
@@ -48,9 +48,9 @@ def _bottoms(site):
 def test_image_method(make_site, kind):
     """Isovelocity water over a flat seabed: every path with up to 8 bounces matches its image source.
 
-    Source: image method, exact (REFERENCES 6.3); seabed coefficient R = +1 (rigid), -1 (pressure
+    Source: image method, exact ([Jensen2011]); seabed coefficient R = +1 (rigid), -1 (pressure
     release) or the Rayleigh coefficient of a fluid bed (aculink.site.seabed, checked in the site
-    tests against REFERENCES 4.1) at the image's grazing angle. Delays within 1 us, levels within 0.1 dB,
+    tests against [Jensen2011]) at the image's grazing angle. Delays within 1 us, levels within 0.1 dB,
     phases within 0.01 rad, bounce counts exact. Absorption is divided out with the reported value.
     """
     site = make_site(seabed_depth_m=(D,), source_depth_m=ZS, receiver_depth_m=ZR, bed_speed_mps=1700.0,
@@ -96,8 +96,9 @@ def test_surface_roughness_per_bounce(make_site):
     """The rough-surface factor of a path is the product of Eckart coefficients at its grazing angles.
 
     Source: Eckart (1953), J. Acoust. Soc. Am. 25, 566-570, via aculink.site.surface (checked there against
-    REFERENCES 5.1); grazing angle from the image method (exact). Ratio of amplitudes with and without
-    roughness, 1e-6 relative.
+    [Eckart1953]); grazing angle from the image method (exact). Ratio of amplitudes with and without
+    roughness within 1e-5 relative, and the grazing sum within 1e-4 relative: the eigenray's values are
+    interpolated linearly between two fan rays 0.1 deg apart (error second order in the spacing).
     """
     rough = make_site(seabed_depth_m=(D,), source_depth_m=ZS, receiver_depth_m=ZR, rms_height_m=0.05)
     smooth = make_site(seabed_depth_m=(D,), source_depth_m=ZS, receiver_depth_m=ZR, rms_height_m=0.0)
@@ -109,8 +110,8 @@ def test_surface_roughness_per_bounce(make_site):
         ns = int(a.surface_bounces[i])
         theta = np.radians(abs(float(a.arrival_angle_deg[i])))
         expect = np.abs(surface_coherent_reflection(theta, f, 0.05, C)) ** ns
-        np.testing.assert_allclose(np.abs(a.amplitude.values[i]) / np.abs(b.amplitude.values[i]), expect, rtol=1e-6)
-        assert float(a.surface_grazing_sin2_sum[i]) == pytest.approx(ns * np.sin(theta) ** 2, rel=1e-9)
+        np.testing.assert_allclose(np.abs(a.amplitude.values[i]) / np.abs(b.amplitude.values[i]), expect, rtol=1e-5)
+        assert float(a.surface_grazing_sin2_sum[i]) == pytest.approx(ns * np.sin(theta) ** 2, rel=1e-4)
 
 
 def _strong_match(a, b, within_db):
@@ -118,9 +119,9 @@ def _strong_match(a, b, within_db):
     la = 20 * np.log10(np.abs(a.amplitude.values[: int(a.n_arrivals)]))
     pairs = []
     for i in np.flatnonzero(la > la.max() - within_db):
-        key = (int(a.surface_bounces[i]), int(a.bottom_bounces[i]), int(a.caustics[i]))
+        key = (int(a.surface_bounces[i]), int(a.bottom_bounces[i]))
         same = [j for j in range(int(b.n_arrivals))
-                if (int(b.surface_bounces[j]), int(b.bottom_bounces[j]), int(b.caustics[j])) == key]
+                if (int(b.surface_bounces[j]), int(b.bottom_bounces[j])) == key]
         assert same, f"no reciprocal arrival for {key} at {float(a.delay_s[i]):.6f} s"
         pairs.append((i, min(same, key=lambda j: abs(float(b.delay_s[j]) - float(a.delay_s[i])))))
     return pairs
@@ -215,7 +216,7 @@ def test_empty_result_has_a_reason(make_site):
     Source: contract (DEVELOPERS.md, Propagation); no outside source.
     """
     site = make_site(seabed_depth_m=(D,), source_depth_m=ZS)
-    arr = find_arrivals(site, 1000.0, 95.0, angles_deg=[-1.0, 1.0])
+    arr = find_arrivals(site, 1000.0, 95.0, angles_deg=np.linspace(-1.0, 1.0, 21))
     assert int(arr.n_arrivals.values[0, 0]) == 0
     assert "reason" in arr.attrs and "no eigenray" in arr.attrs["reason"]
 

@@ -9,7 +9,7 @@ from scipy.integrate import solve_ivp
 from aculink.propagation import _kernels as _k
 from aculink.propagation.rays import prepare_medium, run_fan, trace_rays
 
-# REFERENCES 6.2 worked example: c = 1500 + 0.017 z, source 200 m, launched 10 deg down [computed there]
+# [Jensen2011] worked example: c = 1500 + 0.017 z, source 200 m, launched 10 deg down [computed there]
 LINEAR = dict(p=6.55053714e-4, turning_depth=1564.257, turning_range=15593.528, turning_time=10.319166,
               z1000_angle=6.4264, z1000_range=5542.575, z1000_time=3.707550, back_range=31187.057,
               back_time=20.638333)
@@ -28,7 +28,7 @@ def _dz_dtheta(row):
 def test_linear_gradient_turning_point(linear_site):
     """Turning depth, range and time to the turning point of a circular-arc ray.
 
-    Source: REFERENCES 6.2 worked example (closed forms for c = c0 + g z, Jensen et al. 2011, ch. 3,
+    Source: [Jensen2011] worked example (closed forms for c = c0 + g z, Jensen et al. 2011, ch. 3,
     values computed and verified by quadrature there), 1e-6 relative.
     """
     fan = trace_rays(linear_site, angles_deg=[10.0], max_range_m=31187.057 + 10.0)
@@ -43,7 +43,7 @@ def test_linear_gradient_turning_point(linear_site):
 def test_linear_gradient_eigenray_times(linear_site):
     """Eigenray back at the source depth, and at 1000 m going down: range, time and angle.
 
-    Source: REFERENCES 6.2 worked example (circular-arc closed forms), 1e-6 relative.
+    Source: [Jensen2011] worked example (circular-arc closed forms), 1e-6 relative.
     """
     from aculink.propagation import find_arrivals
 
@@ -80,7 +80,7 @@ def test_snell_invariant_along_refracting_path(make_site, munk):
 def test_munk_cycle_distance(theta0, cycle_km, make_site, munk):
     """Cycle distance of rays from a source on the Munk axis.
 
-    Source: REFERENCES 6.1 [computed by quadrature there]; Munk (1974), J. Acoust. Soc. Am. 55, 220-226.
+    Source: [Munk1974] [computed by quadrature there]; Munk (1974), J. Acoust. Soc. Am. 55, 220-226.
     The surface-grazing ray (14.3809 deg) repeats every 65.369 km; 14.38 deg turns 6 cm below the surface
     (cycle 0.002% shorter). Tolerance 0.1%.
     """

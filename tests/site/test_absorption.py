@@ -14,7 +14,7 @@ from aculink.site import (
     francois_garrison_validity_warnings,
 )
 
-# REFERENCES.md 2.1 check table: T, S, f (kHz), quoted alpha (dB/km) [published],
+# [FrancoisGarrison1982b] check table: T, S, f (kHz), quoted alpha (dB/km) [published],
 # the formula as written (dB/km) [computed]; surface (z = 0), pH 8.
 FG_CHECK = [
     (0, 30, 1, 0.0610, 0.06126),
@@ -28,7 +28,7 @@ FG_CHECK = [
     (10, 35, 100, 33.6, 33.63),
 ]
 
-# REFERENCES.md 2.4 [computed]: (T, S, z) -> f (kHz), F&G, Ainslie-McColm, Thorp (dB/km), pH 8.
+# [FrancoisGarrison1982b] [computed]: (T, S, z) -> f (kHz), F&G, Ainslie-McColm, Thorp (dB/km), pH 8.
 ENVIRONMENTS = {
     (4.0, 35.0, 1000.0): [(1, 0.0610, 0.0622, 0.0690), (10, 1.0053, 1.0099, 1.1870),
                           (25, 4.9757, 4.9783, 6.1048), (50, 13.1304, 13.0980, 17.4671),
@@ -49,7 +49,7 @@ def _half_unit(value):
 @pytest.mark.parametrize("t, s, f_khz, quoted, computed", FG_CHECK)
 def test_francois_garrison_check_table(t, s, f_khz, quoted, computed):
     """Francois and Garrison (1982b), J. Acoust. Soc. Am. 72(6), 1879-1890: quoted values
-    within 0.5 % [published]; and the REFERENCES.md 2.1 [computed] column at its printed
+    within 0.5 % [published]; and the [FrancoisGarrison1982b] [computed] column at its printed
     precision. The 1 kHz rows are boric-acid dominated and catch the 8.68-for-8.86 typo
     (which makes them 2 % low)."""
     alpha = absorption_francois_garrison(f_khz * 1e3, t, s, 0.0, 8.0)
@@ -59,9 +59,9 @@ def test_francois_garrison_check_table(t, s, f_khz, quoted, computed):
 
 @pytest.mark.parametrize("env", list(ENVIRONMENTS))
 def test_environment_tables(env):
-    """REFERENCES.md 2.4 [computed] for the two environments, at the printed precision, for
+    """[FrancoisGarrison1982b] [computed] for the two environments, at the printed precision, for
     Francois-Garrison, Ainslie-McColm (1998) and Thorp; and A&M within 3 % of F&G at these
-    points (REFERENCES.md: within 2.5 %, tolerance 3 %)."""
+    points (the published source: within 2.5 %, tolerance 3 %)."""
     t, s, z = env
     for f_khz, fg, am, thorp in ENVIRONMENTS[env]:
         a_fg = absorption_francois_garrison(f_khz * 1e3, t, s, z, 8.0)
@@ -73,7 +73,7 @@ def test_environment_tables(env):
 
 
 # Real water masses, independent of the absorption formulas: the (SP, t, z) points of the
-# REFERENCES.md 1.6 sound-speed comparison (warm surface to cold abyssal water).
+# [IOC2010] sound-speed comparison (warm surface to cold abyssal water).
 WATER_MASSES = [(35.0, 28.0, 9.9), (36.0, 20.0, 99.3), (33.0, 15.0, 49.7), (34.0, 0.0, 99.3),
                 (35.0, 10.0, 496.0), (34.9, 4.0, 990.8), (34.9, 2.0, 1976.9),
                 (34.7, 1.5, 3935.7), (34.7, 1.8, 5877.5)]
@@ -87,7 +87,7 @@ def test_ainslie_mccolm_within_ten_percent_of_francois_garrison():
     the temperature and depth domain.
 
     Note [computed]: the claim does not hold at every corner of the rectangular domain; with
-    the formulas as transcribed in REFERENCES.md 2.1 and 2.3 the largest deviation on a full
+    the formulas as transcribed in [FrancoisGarrison1982b], [AinslieMcColm1998] the largest deviation on a full
     grid is about 30 % (warm, fresh, deep water near 5 kHz, where A&M's boric-acid relaxation
     frequency rises faster with temperature than F&G's), and 12 % at -6 degC and 1 MHz, where
     F&G's pure-water cubic is extrapolated below its 0..30 degC fit. Such combinations are not
@@ -120,7 +120,7 @@ THORP_TABLE = [(0.1, 0.0042), (0.5, 0.0278), (1, 0.0690), (2, 0.1350), (5, 0.382
 
 
 def test_thorp_table():
-    """REFERENCES.md 10b table [computed] from the dB/km Thorp form used by Stojanovic (2007),
+    """[Stojanovic2007] table [computed] from the dB/km Thorp form used by Stojanovic (2007),
     at the printed precision (4 decimals); and 'about 1.1 dB/km at 10 kHz' [published
     cross-check in review tables]."""
     f_khz, expected = np.array(THORP_TABLE).T
@@ -130,7 +130,7 @@ def test_thorp_table():
 
 def test_thorp_matches_original_db_per_kyd_form():
     """Thorp (1967), J. Acoust. Soc. Am. 42, 270: 0.1 f^2/(1+f^2) + 40 f^2/(4100+f^2) dB/kyd
-    [memory, REFERENCES.md 2.2]. With 1 dB/kyd = 1/0.9144 dB/km, the dB/km form minus its later
+    [memory, [Thorp1967]]. With 1 dB/kyd = 1/0.9144 dB/km, the dB/km form minus its later
     2.75e-4 f^2 + 0.003 terms equals the converted original to the rounding of 0.1094 -> 0.11
     and 43.74 -> 44 (under 1 %)."""
     f = np.geomspace(0.1, 100.0, 31)

@@ -147,7 +147,7 @@ def test_isovelocity_and_linear_profiles(base, write_site):
 def test_munk_profile_values(base, write_site):
     """Munk (1974) canonical profile with its defaults (axis 1300 m, scale 1300 m, 1500 m/s,
     epsilon 0.00737): c = 1548.5210, 1500.0000, 1518.6666, 1551.9107 m/s at 0, 1300, 3000,
-    5000 m (REFERENCES 6.1, [computed] from the formula) to 1e-3 m/s on the tabulated grid."""
+    5000 m ([Munk1974], [computed] from the formula) to 1e-3 m/s on the tabulated grid."""
     base["water"] = {"profile": "munk"}
     base["seabed"]["depth_m"] = 5000.0
     base["receiver"]["depth_m"] = 1000.0
@@ -169,7 +169,7 @@ def test_analytic_temperature_is_uniform(base, write_site):
 # --------------------------------------------------------------------------- other sections
 def test_sediment_preset_scales_with_the_water(base, write_site):
     """Medium sand: speed ratio 1.1782, density ratio 1.845, 0.886 dB/wavelength (APL-UW TR
-    9407 (1994) sediment table, REFERENCES 4.2(ii) [published]) against the water at the
+    9407 (1994) sediment table, [APLUW1994]) [published]) against the water at the
     deepest seabed point (1494 m/s) and the water density (default 1025 kg/m^3)."""
     bed = load_site(write_site(base)).seabed
     assert bed.sediment == "medium sand"
@@ -198,7 +198,7 @@ def test_sloping_seabed(base, write_site):
 
 def test_surface_from_wind_and_from_wave_height(base, write_site):
     """Pierson-Moskowitz (1964): sigma = 0.052311 U19.5^2 / g with U19.5 = 1.06 U10
-    (REFERENCES 5.2 [computed] closed form; the 1.06 factor is aculink.constants'). Given only
+    ([PiersonMoskowitz1964] [computed] closed form; the 1.06 factor is aculink.constants'). Given only
     the rms height, the wind is the one that produces it."""
     site = load_site(write_site(base))
     u195 = 1.06 * 5.0

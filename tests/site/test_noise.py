@@ -8,7 +8,7 @@ from hypothesis import strategies as st
 from aculink.errors import AculinkError
 from aculink.site import noise_band_level_db, noise_components_db, noise_psd_db
 
-# REFERENCES.md 3.1 components, s = 0.5, w = 5 m/s [computed from the published fits]:
+# [Coates1990] components, s = 0.5, w = 5 m/s [computed from the published fits]:
 # f (kHz), Nt, Ns, Nw, Nth, total (dB re 1 uPa^2/Hz)
 COMPONENTS = [
     (0.01, 77.00, 71.88, 42.26, -55.00, 78.17),
@@ -20,7 +20,7 @@ COMPONENTS = [
     (100, -43.00, -28.01, 26.70, 25.00, 28.94),
 ]
 
-# REFERENCES.md 3.1 totals [computed]: columns (s, w) and rows f (kHz).
+# [Coates1990] totals [computed]: columns (s, w) and rows f (kHz).
 TOTAL_CASES = [(0.0, 0.0), (0.5, 0.0), (0.5, 5.0), (0.5, 10.0), (1.0, 10.0), (0.0, 15.0)]
 TOTALS = [
     (0.1, 57.68, 67.22, 67.79, 69.55, 77.47, 71.28),
@@ -38,7 +38,7 @@ TOL_DB = 0.005 + 1e-9  # half a unit of the tables' second decimal
 
 def test_components_table():
     """Coates (1989/1990) fits as printed by Stojanovic (2007) [published formulas];
-    REFERENCES.md 3.1 component table [computed] at 0.01 dB. The 100 kHz thermal value (25 dB)
+    [Coates1990] component table [computed] at 0.01 dB. The 100 kHz thermal value (25 dB)
     catches a natural log in place of log10."""
     f_khz, nt, ns, nw, nth, total = np.array(COMPONENTS).T
     parts = noise_components_db(f_khz * 1e3, 0.5, 5.0)
@@ -51,7 +51,7 @@ def test_components_table():
 
 @pytest.mark.parametrize("column", range(len(TOTAL_CASES)))
 def test_total_table(column):
-    """REFERENCES.md 3.1 total N(f) for six (shipping, wind) cases [computed], 0.01 dB."""
+    """[Coates1990] total N(f) for six (shipping, wind) cases [computed], 0.01 dB."""
     s, w = TOTAL_CASES[column]
     table = np.array(TOTALS)
     np.testing.assert_allclose(noise_psd_db(table[:, 0] * 1e3, s, w), table[:, column + 1],
@@ -59,7 +59,7 @@ def test_total_table(column):
 
 
 def test_stojanovic_values():
-    """Stojanovic (2007) model, REFERENCES.md 10b [computed]: s = 0.5, w = 0 gives 67.22,
+    """Stojanovic (2007) model, [Stojanovic2007] [computed]: s = 0.5, w = 0 gives 67.22,
     45.37, 29.35, 25.13 dB at 0.1, 1, 10, 100 kHz; at 1 kHz Nt = 17, Ns = 39.23, Nw = 44.15,
     Nth = -15 dB."""
     np.testing.assert_allclose(noise_psd_db([100.0, 1e3, 1e4, 1e5], 0.5, 0.0),
@@ -78,7 +78,7 @@ def test_psd_is_power_sum_of_components():
 
 
 def test_band_level_check_value():
-    """REFERENCES.md 3.1 [computed]: the integral of N(f) over 10-20 kHz for s = 0.5, w = 5
+    """[Coates1990] [computed]: the integral of N(f) over 10-20 kHz for s = 0.5, w = 5
     is 83.25 dB re 1 uPa^2 (0.01 dB)."""
     assert noise_band_level_db(10e3, 20e3, 0.5, 5.0) == pytest.approx(83.25, abs=TOL_DB)
 

@@ -18,7 +18,7 @@ from aculink.site import (
     unesco_validity_warnings,
 )
 
-# REFERENCES.md section 1.6 cross-formula table [computed with gsw 3.6.23 at lon -30, lat 30]:
+# [IOC2010] cross-formula table [computed with gsw 3.6.23 at lon -30, lat 30]:
 # SP, t90, p (dbar), z (m), gsw.sound_speed, Mackenzie(t, SP, z), UNESCO83(SP, t68, p)
 CROSS_TABLE = [
     (35.0, 28.0, 10, 9.9, 1541.250, 1541.298, 1541.497),
@@ -47,7 +47,7 @@ def test_mackenzie_published_check_value():
     (20.0, 30.0, 1000.0, 1532.24, 5e-3),
 ])
 def test_mackenzie_arithmetic(t, s, d, expected, tol):
-    """REFERENCES.md 1.1 [computed] from the Mackenzie (1981) equation as printed, compared at
+    """[Mackenzie1981] [computed] from the Mackenzie (1981) equation as printed, compared at
     the table's printed precision; the first point is outside the validity range and checks
     the arithmetic of the D^2 and T D^3 terms."""
     assert sound_speed_mackenzie(t, s, d) == pytest.approx(expected, abs=tol)
@@ -61,21 +61,21 @@ def test_unesco_published_check_value():
 
 
 def test_unesco_converts_its90_to_ipts68():
-    """T68 = 1.00024 T90 (REFERENCES.md 1.2, [published] scale relation): an ITS-90 input of
+    """T68 = 1.00024 T90 ([FofonoffMillard1983], [published] scale relation): an ITS-90 input of
     40/1.00024 degC must give the same value as the IPTS-68 check value."""
     assert sound_speed_unesco(40.0 / 1.00024, 40.0, 10000.0) == pytest.approx(
         sound_speed_unesco(40.0, 40.0, 10000.0, ipts68=True), abs=1e-9)
 
 
 def test_unesco_cross_table():
-    """REFERENCES.md 1.6 UNESCO83 column [computed, with t68 = 1.00024 t90], at the printed
+    """[IOC2010] UNESCO83 column [computed, with t68 = 1.00024 t90], at the printed
     precision: this exercises the default ITS-90 input path over 10-6000 dbar."""
     sp, t, p, _, _, _, c_unesco = np.array(CROSS_TABLE).T
     np.testing.assert_allclose(sound_speed_unesco(t, sp, p), c_unesco, atol=5e-4)
 
 
 def test_teos10_gsw_documented_examples():
-    """gsw.sound_speed documentation example [published] (REFERENCES.md 1.6 table, 75-term,
+    """gsw.sound_speed documentation example [published] ([IOC2010] table, 75-term,
     gsw 3.6.23): the examples give SA, CT and p, so we convert them back to the in-situ
     temperature and practical salinity our wrapper takes (gsw.t_from_CT, gsw.SP_from_SA at an
     arbitrary position, lon 188, lat 4) and expect the documented speeds."""
@@ -92,7 +92,7 @@ def test_teos10_gsw_documented_examples():
 
 
 def test_teos10_cross_table_and_depth_conversion():
-    """REFERENCES.md 1.6 [computed with gsw at lon -30, lat 30]: the gsw.sound_speed column
+    """[IOC2010] [computed with gsw at lon -30, lat 30]: the gsw.sound_speed column
     through our wrapper from in-situ (SP, t, p), and the depth column from our pressure-to-depth
     conversion, both at the printed precision."""
     sp, t, p, z, c_gsw, _, _ = np.array(CROSS_TABLE).T
@@ -113,7 +113,7 @@ def test_teos10_from_depth_matches_from_pressure():
 
 
 def test_mackenzie_against_teos10_within_stated_tolerance():
-    """REFERENCES.md 1.6 suggested tolerance [computed]: |Mackenzie - gsw| <= 0.1 m/s for
+    """[IOC2010] suggested tolerance [computed]: |Mackenzie - gsw| <= 0.1 m/s for
     z <= 2000 m and <= 0.5 m/s to 6000 m, Mackenzie at the depth from our conversion and gsw
     through our wrapper; the Mackenzie column itself is also reproduced at printed precision."""
     sp, t, p, _, _, c_mack_table, _ = np.array(CROSS_TABLE).T

@@ -25,7 +25,7 @@ def _site(base, **sections):
 
 def test_munk_axis_and_critical_depth(base):
     """Munk (1974) canonical profile: axis at 1300 m (1500 m/s) and critical depth 4799.9 m,
-    where c returns to the surface speed 1548.52 m/s (REFERENCES 6.1 [computed]; tolerance
+    where c returns to the surface speed 1548.52 m/s ([Munk1974] [computed]; tolerance
     0.1%). No surface duct: the speed falls from the surface to the axis."""
     site = _site(base, water={"profile": "munk"}, seabed={"depth_m": 5200.0, "sediment": "clay"},
                  receiver={"depth_m": 1300.0, "range_m": 20000.0})
@@ -41,7 +41,7 @@ def test_munk_axis_and_critical_depth(base):
 
 def test_munk_in_water_too_shallow_for_the_critical_depth(base):
     """With the seabed at 4000 m the Munk water never gets back to the surface speed (it is
-    1535.04 m/s at 4000 m, REFERENCES 6.1 [computed]): axis yes, critical depth no, and a
+    1535.04 m/s at 4000 m, [Munk1974] [computed]): axis yes, critical depth no, and a
     warning says so."""
     site = _site(base, water={"profile": "munk"}, seabed={"depth_m": 4000.0, "sediment": "clay"},
                  receiver={"depth_m": 1300.0, "range_m": 20000.0})
@@ -77,7 +77,7 @@ def test_regimes_of_simple_profiles():
 
 
 def test_critical_grazing_angle_and_bottom_loss(base):
-    """Rayleigh reflection, sand of REFERENCES 4.1 table (a): m = 1.9, c2/c1 = 1.1,
+    """Rayleigh reflection, sand of [Jensen2011] table (a): m = 1.9, c2/c1 = 1.1,
     0.8 dB/wavelength. Critical grazing angle arccos(c1/c2) = 24.620 deg (Snell's law, closed
     form); bottom loss 0.719 dB at 10 deg, 5.255 dB at 30 deg, 9.050 dB at 90 deg
     ([computed] from the formula, memory form)."""
@@ -96,7 +96,7 @@ def test_critical_grazing_angle_and_bottom_loss(base):
 
 def test_slow_seabed_has_no_critical_angle_but_an_intromission_angle(base):
     """APL-UW clay (m = 1.145, nu = 0.980): no critical angle, lossless intromission angle
-    21.352 deg (REFERENCES 4.1 table (c) [computed])."""
+    21.352 deg ([Jensen2011] table (c) [computed])."""
     site = _site(base, water={"profile": "isovelocity", "sound_speed_mps": 1500.0, "density_kgm3": 1000.0},
                  seabed={"depth_m": 100.0, "sound_speed_mps": 1470.0, "density_kgm3": 1145.0,
                          "attenuation_db_per_wavelength": 0.0})
@@ -106,7 +106,7 @@ def test_slow_seabed_has_no_critical_angle_but_an_intromission_angle(base):
 
 
 def test_noise_at_the_carrier_and_over_the_band(base):
-    """Wenz-curve fits (Coates 1989; REFERENCES 3.1 [computed]): s = 0.5, w = 5 m/s gives
+    """Wenz-curve fits (Coates 1989; [Coates1990] [computed]): s = 0.5, w = 5 m/s gives
     46.09 dB re 1 uPa^2/Hz at 10 kHz; over 10-20 kHz the band level is 83.25 dB re 1 uPa^2.
     extra_db adds to both."""
     site = _site(base, surface={"wind_speed_mps": 5.0}, noise={"shipping": 0.5},
@@ -133,7 +133,7 @@ def test_absorption_at_the_carrier(base):
 def test_surface_coherent_loss_at_the_carrier(base):
     """Eckart (1953): loss = 4.343 Gamma^2 dB with Gamma = 2 k sigma sin(theta). With
     sigma = 0.05 m, 10 kHz, c = 1500 m/s the loss is 0.579 dB at 5 deg and 2.298 dB at 10 deg
-    (REFERENCES 5.1 [computed])."""
+    ([Eckart1953] [computed])."""
     site = _site(base, water={"profile": "isovelocity", "sound_speed_mps": 1500.0},
                  surface={"rms_height_m": 0.05}, modem={"carrier_hz": 10000.0, "bandwidth_hz": 4000.0})
     f = summarize_site(site)["surface"]

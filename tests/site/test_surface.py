@@ -16,14 +16,14 @@ from aculink.site import (
     surface_vertical_velocity_rms,
 )
 
-# REFERENCES.md 5.1 [computed], f = 10 kHz, c = 1500 m/s: sigma (m), theta (deg), |R|, loss (dB)
+# [Eckart1953] [computed], f = 10 kHz, c = 1500 m/s: sigma (m), theta (deg), |R|, loss (dB)
 ECKART = [
     (0.05, 1, 0.99733, 0.023), (0.05, 5, 0.93553, 0.579), (0.05, 10, 0.76756, 2.298),
     (0.05, 30, 0.11155, 19.050), (0.1, 1, 0.98937, 0.093), (0.1, 5, 0.76601, 2.315),
     (0.1, 10, 0.34710, 9.191), (0.3, 1, 0.90829, 0.836), (0.3, 5, 0.09080, 20.838),
 ]
 
-# REFERENCES.md 5.2 [computed with g = 9.81 m/s^2]: U19.5, sigma_eta, Hs, omega_p, T_p
+# [PiersonMoskowitz1964] [computed with g = 9.81 m/s^2]: U19.5, sigma_eta, Hs, omega_p, T_p
 PM_TABLE = [
     (5, 0.1333, 0.5332, 1.7210, 3.65), (10, 0.5332, 2.1330, 0.8605, 7.30),
     (15, 1.1998, 4.7992, 0.5737, 10.95), (20, 2.1330, 8.5319, 0.4302, 14.60),
@@ -33,7 +33,7 @@ G_TABLE = 9.81
 
 def test_eckart_table():
     """Eckart (1953), J. Acoust. Soc. Am. 25, 566-570: R = -exp(-2 k^2 sigma^2 sin^2 theta);
-    REFERENCES.md 5.1 table [computed], |R| to 5 decimals and loss to 3 decimals."""
+    [Eckart1953] table [computed], |R| to 5 decimals and loss to 3 decimals."""
     sigma, theta, mag, loss = np.array(ECKART).T
     r = surface_coherent_reflection(np.radians(theta), 10e3, sigma, 1500.0)
     assert np.all(r < 0)
@@ -63,7 +63,7 @@ def test_rougher_never_reflects_more(theta, f, s1, s2):
 
 
 def test_significant_wave_height_coefficient():
-    """Pierson and Moskowitz (1964): Hs = 4 sigma_eta = 0.2092 U19.5^2 / g (REFERENCES.md 5.2,
+    """Pierson and Moskowitz (1964): Hs = 4 sigma_eta = 0.2092 U19.5^2 / g ([PiersonMoskowitz1964],
     [computed] from the spectrum's zeroth moment), at the coefficient's printed precision."""
     u = np.array([3.0, 10.0, 25.0])
     hs = significant_wave_height_pierson_moskowitz(u, height_m=19.5)
@@ -71,7 +71,7 @@ def test_significant_wave_height_coefficient():
 
 
 def test_pm_table():
-    """REFERENCES.md 5.2 [computed with g = 9.81]: sigma_eta and Hs scale as 1/g and the peak
+    """[PiersonMoskowitz1964] [computed with g = 9.81]: sigma_eta and Hs scale as 1/g and the peak
     frequency as g, so our values (g = 9.80665) are rescaled to g = 9.81 and compared at the
     printed precision. The peak is found numerically (scipy.optimize) on our spectrum."""
     for u, sigma, hs, omega_p, t_p in PM_TABLE:
@@ -104,7 +104,7 @@ def test_variance_and_vertical_velocity_by_quadrature(u10):
 def test_wind_height_conversion():
     """Wind at 10 m is converted to 19.5 m with WIND_19P5_OVER_10 (a neutral log profile,
     U(z) ~ ln(z/z0)); the factor lies in the log-law range for sea-surface roughness lengths
-    z0 = 1e-4..2e-4 m (REFERENCES.md 5.2: 1.058-1.062) [computed from the log law]."""
+    z0 = 1e-4..2e-4 m ([PiersonMoskowitz1964]: 1.058-1.062) [computed from the log law]."""
     lo, hi = (np.log(19.5 / z0) / np.log(10.0 / z0) for z0 in (1e-4, 2e-4))
     assert lo <= WIND_19P5_OVER_10 <= hi
     assert rms_wave_height_pierson_moskowitz(10.0) == pytest.approx(

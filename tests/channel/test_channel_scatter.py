@@ -1,0 +1,182 @@
+"""The rough surface's scattered component: energy, geometry, Doppler, calm limit, seeds."""
+
+from __future__ import annotations
+
+import numpy as np
+import pytest
+from scipy import integrate, stats
+
+from aculink.channel import Channel, apply_channel, link_budget
+from aculink.channel.scatter import (
+    SUBPATHS,
+    add_surface_scatter,
+    cluster_excess_delays,
+    mean_square_slope,
+    tilt_bin_moments,
+)
+from aculink.site.model import Surface
+from aculink.site.surface import rms_wave_height_pierson_moskowitz
+
+from .conftest import ENVIRONMENTS, image_arrivals
+
+FREQ = np.linspace(9000.0, 15000.0, 7)
+
+
+def _rough_arrivals(site, n_images=3, range_m=2000.0):
+    """Image-method arrivals with the Eckart coherent factor applied as the ray tracer does
+    (amplitude x exp(-2 k^2 sigma^2 S); Eckart 1953), and the smooth ones for reference."""
+    smooth = image_arrivals(depth_m=100.0, c=1500.0, zs=30.0, zr=60.0, range_m=range_m,
+                            n_images=n_images, bottom_r=0.7, freq_hz=FREQ)
+    rough = smooth.copy(deep=True)
+    k = 2 * np.pi * FREQ / float(site.water.profile.speed(np.array([0.0]))[0])
+    s = rough["surface_grazing_sin2_sum"].values[0, 0]
+    rough["amplitude"].values[0, 0] *= np.exp(-2 * (k[None, :] * site.surface.rms_height_m) ** 2 * s[:, None])
+    return smooth, rough
+
+
+def _windy(site, wind):
+    return site.replace(surface=Surface(wind, float(rms_wave_height_pierson_moskowitz(wind)))).with_geometry(
+        range_m=2000.0, depth_m=60.0)
+
+
+@pytest.mark.parametrize("wind", [1.0, 4.0, 8.0])
+def test_coherent_plus_scattered_equals_incident(shelf_site, wind):
+    """Energy conservation of the Kirchhoff surface term at every frequency: the steady path
+    keeps the Eckart coherent intensity exp(-Gamma^2) of the incident, its cluster carries
+    1 - exp(-Gamma^2), and the two add up to the incident intensity (Eckart 1953, closed
+    form); so the incoherent TL equals the smooth-surface one whatever the wind (no path is
+    dropped here)."""
+    site = _windy(shelf_site, wind)
+    smooth, rough = _rough_arrivals(site)
+    ch = Channel.from_arrivals(rough, site)
+    ref = Channel.from_arrivals(smooth, site.replace(surface=Surface(0.0, 0.0)))
+    assert ch.scattered.sum() == SUBPATHS * int(np.sum(ref.surface_bounces > 0))
+    inc = np.abs(ref.gain) ** 2                                   # smooth = incident
+    steady = ch.subset(~ch.scattered)
+    k = 2 * np.pi * FREQ / ch.surface.sound_speed_mps
+    gamma2 = 4 * (k[None, :] * site.surface.rms_height_m) ** 2 * steady.surface_grazing_sin2_sum[:, None]
+    np.testing.assert_allclose(np.abs(steady.gain) ** 2, inc * np.exp(-gamma2), rtol=1e-10)
+    total = np.sum(np.abs(ch.gain) ** 2, axis=0)
+    np.testing.assert_allclose(total, inc.sum(axis=0), rtol=1e-10)
+    # between grid frequencies gains are interpolated in amplitude, not power: 0.01 dB
+    assert link_budget(site, ch).tl_db == pytest.approx(link_budget(site, ref).tl_db, abs=0.01)
+
+
+def test_tl_continuous_in_wind(shelf_site):
+    """Incoherent TL over winds 0-8 m/s changes by less than 0.01 dB when no path is dropped
+    (energy conservation above; before the scattered component it fell by tens of dB)."""
+    tls = []
+    for wind in (0.0, 0.5, 2.0, 5.0, 8.0):
+        site = _windy(shelf_site, wind) if wind else shelf_site.replace(surface=Surface(0.0, 0.0)).with_geometry(
+            range_m=2000.0, depth_m=60.0)
+        _, rough = _rough_arrivals(site)
+        tls.append(link_budget(site, Channel.from_arrivals(rough, site)).tl_db)
+    assert np.ptp(tls) < 0.01
+
+
+def test_calm_sea_gives_the_coherent_channel(shelf_site):
+    """A flat sea (sigma = 0) adds no cluster: the channel is the arrivals' paths, unchanged
+    (Eckart factor 1, nothing scattered; closed form)."""
+    site = shelf_site.replace(surface=Surface(0.0, 0.0)).with_geometry(range_m=2000.0, depth_m=60.0)
+    smooth, _ = _rough_arrivals(site)
+    ch = Channel.from_arrivals(smooth, site)
+    assert not ch.scattered.any() and not ch.is_time_varying
+    assert ch.n_paths == smooth.sizes["arrival"]
+    # a very light sea: the cluster power goes to zero continuously (1 - exp(-Gamma^2) ~ Gamma^2)
+    light = _windy(shelf_site, 0.3)
+    _, rough = _rough_arrivals(light)
+    lc = Channel.from_arrivals(rough, light)
+    frac = np.sum(np.abs(lc.gain[lc.scattered]) ** 2) / np.sum(np.abs(lc.gain) ** 2)
+    assert 0 < frac < 1e-3
+
+
+def test_tilt_bin_moments_against_scipy_truncnorm():
+    """E[beta^2 | bin] over equal-probability bins of |beta| for a Gaussian truncated to
+    |beta| < theta, against scipy.stats.truncnorm quantiles and scipy.integrate.quad
+    (reference library)."""
+    for t in (0.05, 0.4, 1.0, 3.0):
+        got = tilt_bin_moments(np.array([t]), 4)[0]
+        dist = stats.truncnorm(0.0, t)
+        edges = dist.ppf(np.linspace(0, 1, 5))
+        for j in range(4):
+            num = integrate.quad(lambda x: x * x * dist.pdf(x), edges[j], edges[j + 1])[0]
+            assert got[j] == pytest.approx(num / 0.25, rel=1e-6)
+
+
+def test_glistening_delay_matches_exact_facet_geometry():
+    """Excess delay of a facet of tilt beta: 2 beta^2 L1 L2 / ((L1 + L2) c) to second order,
+    checked against the exact path length through the displaced reflection point of a single
+    surface bounce (source 30 m, receiver 60 m deep, 2 km; plane geometry, closed form)."""
+    zs, zr, r, c = 30.0, 60.0, 2000.0, 1500.0
+    x_spec = r * zs / (zs + zr)
+    length = np.hypot(x_spec, zs) + np.hypot(r - x_spec, zr)
+    l1, l2 = np.hypot(x_spec, zs), np.hypot(r - x_spec, zr)
+    for dx in (1.0, 3.0):
+        x = x_spec + dx
+        beta = 0.5 * (np.arctan2(zr, r - x) - np.arctan2(zs, x))
+        exact = (np.hypot(x, zs) + np.hypot(r - x, zr) - length) / c
+        assert 2 * beta ** 2 * l1 * l2 / (l1 + l2) / c == pytest.approx(exact, rel=0.02)
+    # the cluster's delays grow with the slope and the range, and sit behind the parent path
+    d = cluster_excess_delays(np.array([0.003, 0.003]), np.array([1, 1]), np.array([2000.0, 4000.0]),
+                              np.array([5.0, 5.0]), float(mean_square_slope(10.0)), 1500.0)
+    assert np.all(d > 0) and np.all(np.diff(d, axis=1) > 0)
+    np.testing.assert_allclose(d[1], 2 * d[0], rtol=1e-12)
+
+
+def test_cox_munk_slope_check_value():
+    """Clean-sea mean-square slope 0.003 + 5.12e-3 U_12.5 (Cox and Munk 1954, from memory):
+    0.0542 at 10 m/s at 12.5 m, i.e. 9.80 m/s at 10 m with the log profile factor 1.020."""
+    assert float(mean_square_slope(10.0 / 1.0201)) == pytest.approx(0.0542, abs=2e-4)
+
+
+def test_scattered_channel_is_seed_reproducible(shelf_site):
+    """Same arrivals, same channel (deterministic sub-paths); same seed, same output; another
+    seed, another sea (project rule; regression)."""
+    site = _windy(shelf_site, 8.0)
+    _, rough = _rough_arrivals(site)
+    a, b = Channel.from_arrivals(rough, site), Channel.from_arrivals(rough, site)
+    np.testing.assert_array_equal(a.gain, b.gain)
+    np.testing.assert_array_equal(a.delay_s, b.delay_s)
+    x = np.exp(2j * np.pi * 300 * np.arange(6000) / 12000.0)
+    y1, y2, y3 = (apply_channel(a, x, 12000.0, seed=s) for s in (3, 3, 4))
+    np.testing.assert_array_equal(y1, y2)
+    assert np.max(np.abs(y1 - y3)) > 1e-3 * np.max(np.abs(y1))
+
+
+def test_doppler_statistics_of_a_cluster(shelf_site):
+    """Doppler spread of a steady path plus its cluster: sqrt(w_s) nu_s with w_s the scattered
+    share of the power and nu_s the cluster's rms width (second moment of a line plus a
+    spread component; closed form); the coherence time is finite."""
+    site = _windy(shelf_site, 6.0)
+    _, rough = _rough_arrivals(site, n_images=0)
+    ch = Channel.from_arrivals(rough, site)
+    st = ch.statistics()
+    from aculink.channel.stats import path_powers
+
+    p = path_powers(ch)
+    w_s = p[ch.scattered].sum() / p.sum()
+    nu = ch.surface_doppler_spread_hz[ch.scattered][0]
+    assert st["doppler_spread_hz"] == pytest.approx(np.sqrt(w_s) * nu, rel=1e-9)
+    assert st["scattered_fraction"] == pytest.approx(w_s, rel=1e-9)
+    assert st["coherence_time_s"] > 0
+
+
+@pytest.mark.slow
+def test_winter_shelf_tl_has_no_cliff_at_five_km():
+    """Bundled winter shelf with the real ray tracer: incoherent TL between 4.5 and 5 km and
+    between adjacent 500 m ranges from 1.5 to 5.5 km changes by less than 3 dB (it fell by
+    15.7 dB at 5 km where the last path without a surface bounce left and the rest were
+    counted as lost; common practice, no source: TL of a range-independent-like shelf is
+    smooth in range)."""
+    from aculink.planning.search import band_frequencies
+    from aculink.propagation import find_arrivals
+    from aculink.site.loader import load_site
+
+    site = load_site(ENVIRONMENTS / "shelf_winter.toml")
+    ranges = np.arange(1500.0, 5501.0, 500.0)
+    arr = find_arrivals(site, ranges, [50.0], freq_hz=band_frequencies(site))
+    tl = []
+    for k, r in enumerate(ranges):
+        ch = Channel.from_arrivals(arr.isel(range=[k]), site, range_m=r, depth_m=50.0)
+        tl.append(link_budget(site.with_geometry(range_m=r, depth_m=50.0), ch).tl_db)
+    assert np.max(np.abs(np.diff(tl))) < 3.0
