@@ -230,6 +230,23 @@ def _monitor(t, n_train, e2, p2, state, rand_mse, wr, wi):
 
 
 @njit(cache=True, error_model="numpy", inline="always")
+def _save_loop(snap, theta, integ, t):
+    """Keep the loop state of a healthy symbol (phase, integrator, when) for a later restore."""
+    snap[0] = theta
+    snap[1] = integ
+    snap[2] = t
+
+
+@njit(cache=True, error_model="numpy", inline="always")
+def _restore_loop(snap, mon, k2, t):
+    """The loop state saved by :func:`_save_loop`, its phase carried forward at the saved
+    frequency to symbol ``t``; the divergence monitor restarts from its healthy averages."""
+    mon[0] = mon[3]
+    mon[1] = mon[4]
+    return snap[0] + k2 * snap[1] * (t - snap[2]), snap[1]
+
+
+@njit(cache=True, error_model="numpy", inline="always")
 def _copy(src, dst):
     for j in range(src.size):
         dst[j] = src[j]
@@ -317,9 +334,7 @@ def rls_dfe(yr, yi, start0, stride, n_sym, n_ff, fb_delays, train, n_train, pts_
                 _copy(wr, snap_wr)
                 _copy(wi, snap_wi)
                 snap_p = True  # P is copied once this symbol's update of it is done
-                snap[0] = theta
-                snap[1] = integ
-                snap[2] = t
+                _save_loop(snap, theta, integ, t)
             elif code == 2:
                 if recoveries >= MAX_RECOVERIES:
                     gave_up = t
@@ -329,10 +344,7 @@ def rls_dfe(yr, yi, start0, stride, n_sym, n_ff, fb_delays, train, n_train, pts_
                     _copy(snap_wi, wi)
                     pr[:, :] = snap_pr
                     pim[:, :] = snap_pi
-                    theta = snap[0] + k2 * snap[1] * (t - snap[2])
-                    integ = snap[1]
-                    mon[0] = mon[3]
-                    mon[1] = mon[4]
+                    theta, integ = _restore_loop(snap, mon, k2, t)
                     restored = True
         if t + 1 == n_sym:
             break
@@ -443,9 +455,7 @@ def nlms_dfe(yr, yi, start0, stride, n_sym, n_ff, fb_delays, train, n_train, pts
             if code == 1:
                 _copy(wr, snap_wr)
                 _copy(wi, snap_wi)
-                snap[0] = theta
-                snap[1] = integ
-                snap[2] = t
+                _save_loop(snap, theta, integ, t)
             elif code == 2:
                 if recoveries >= MAX_RECOVERIES:
                     gave_up = t
@@ -453,10 +463,7 @@ def nlms_dfe(yr, yi, start0, stride, n_sym, n_ff, fb_delays, train, n_train, pts
                     recoveries += 1
                     _copy(snap_wr, wr)
                     _copy(snap_wi, wi)
-                    theta = snap[0] + k2 * snap[1] * (t - snap[2])
-                    integ = snap[1]
-                    mon[0] = mon[3]
-                    mon[1] = mon[4]
+                    theta, integ = _restore_loop(snap, mon, k2, t)
     info[0] = 0
     info[1] = recoveries
     info[2] = gave_up
@@ -503,18 +510,13 @@ def fixed_dfe(yr, yi, start0, stride, n_sym, n_ff, fb_delays, train, n_train, pt
         if gave_up < 0:
             code = _monitor(t, n_train, er * er + ei * ei, ffr * ffr + ffi * ffi, mon, rand_mse, wr, wi)
             if code == 1:
-                snap[0] = theta
-                snap[1] = integ
-                snap[2] = t
+                _save_loop(snap, theta, integ, t)
             elif code == 2:
                 if recoveries >= MAX_RECOVERIES:
                     gave_up = t
                 else:
                     recoveries += 1
-                    theta = snap[0] + k2 * snap[1] * (t - snap[2])
-                    integ = snap[1]
-                    mon[0] = mon[3]
-                    mon[1] = mon[4]
+                    theta, integ = _restore_loop(snap, mon, k2, t)
     info[0] = 0
     info[1] = recoveries
     info[2] = gave_up
