@@ -2,8 +2,15 @@
 
 from __future__ import annotations
 
+import sys
+from pathlib import Path
+
 import numpy as np
 import pytest
+
+# The suite runs with --import-mode=importlib: make this folder's reference modules
+# (image_method, normal_modes) importable by name, as tests/planning does for its helper.
+sys.path.insert(0, str(Path(__file__).parent))
 
 from aculink.site.model import Modem, Noise, Receiver, Seabed, Site, Source, Surface, Water
 from aculink.site.profile import SoundSpeedProfile

@@ -2,10 +2,6 @@
 
 from __future__ import annotations
 
-import importlib.util
-import sys
-from pathlib import Path
-
 import numpy as np
 import pytest
 
@@ -15,18 +11,7 @@ from aculink.propagation import transmission_loss
 from aculink.propagation.loss import default_fan_deg
 from aculink.site.absorption import absorption_francois_garrison
 
-
-def _helper(name):
-    """A test helper module of this folder (the tests run with --import-mode=importlib)."""
-    key = f"aculink_tests_{name}"
-    if key not in sys.modules:
-        spec = importlib.util.spec_from_file_location(key, Path(__file__).with_name(f"{name}.py"))
-        sys.modules[key] = importlib.util.module_from_spec(spec)
-        spec.loader.exec_module(sys.modules[key])
-    return sys.modules[key]
-
-
-images = _helper("image_method")
+import image_method as images
 
 
 def _no_seabed(theta):

@@ -8,10 +8,7 @@ summer-thermocline shallow waveguide over a hard fluid seabed, where the trapped
 
 from __future__ import annotations
 
-import importlib.util
 import math
-import sys
-from pathlib import Path
 
 import numpy as np
 import pytest
@@ -21,19 +18,8 @@ from aculink.propagation import find_arrivals, transmission_loss
 from aculink.propagation.rays import absorption_table_db_per_m, depth_bin_edges
 from aculink.site.loader import site_from_dict
 
-
-def _helper(name):
-    """A test helper module of this folder (the tests run with --import-mode=importlib)."""
-    key = f"aculink_tests_{name}"
-    if key not in sys.modules:
-        spec = importlib.util.spec_from_file_location(key, Path(__file__).with_name(f"{name}.py"))
-        sys.modules[key] = importlib.util.module_from_spec(spec)
-        spec.loader.exec_module(sys.modules[key])
-    return sys.modules[key]
-
-
-nm = _helper("normal_modes")
-images = _helper("image_method")
+import image_method as images
+import normal_modes as nm
 
 
 def _pekeris_exact(f, D, c1, rho1, c2, rho2):
