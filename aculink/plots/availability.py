@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from aculink.plots.style import FIELD_CMAP, PALETTE, SEABED_COLOUR, figure, save, site_title, styled
+from aculink.plots.style import FIELD_CMAP, PALETTE, SEABED_COLOUR, figure, rate_axes, save, site_title, styled
 
 __all__ = ["plot_availability", "plot_closure_map"]
 
@@ -33,14 +33,8 @@ def plot_availability(ds, site, path):
     ax.plot(r_km, np.where(med > 0, med, np.nan), "o", ms=3.5, color=PALETTE[1], label="median member's best rate")
     nom = ds["nominal_net_bit_rate_bps"].values / 1000.0
     ax.plot(r_km, np.where(nom > 0, nom, np.nan), "x", ms=4.5, color="#333333", label="nominal site (no variability)")
-    every = np.concatenate([ds["available_net_bit_rate_bps"].values.ravel(), med * 1000.0, nom * 1000.0])
-    every = every[np.isfinite(every) & (every > 0)] / 1000.0
-    ax.set_yscale("log")
-    if every.size:
-        ax.set_ylim(every.min() / 2.0, every.max() * 2.0)
-    ax.set_xlim(0, r_km.max() * 1.03)
-    ax.set_xlabel("range (km)")
-    ax.set_ylabel("net bit rate (kbit/s)")
+    rate_axes(ax, r_km, np.concatenate([ds["available_net_bit_rate_bps"].values.ravel(), med * 1000.0,
+                                         nom * 1000.0]), "net bit rate (kbit/s)")
     n = int(ds.attrs["members"])
     how = {"nominal": "nominal site only", "enumerated": f"{n} members, enumerated",
            "drawn": f"{n} members, drawn"}[ds.attrs["ensemble"]]
@@ -48,8 +42,6 @@ def plot_availability(ds, site, path):
     ax.set_title(site_title(site, f"receiver {ds.attrs['receiver_depth_m']:g} m deep")
                  + f"\nrate one modem setting sustains, over {how} (varying: {factors})", fontsize=9.5)
     ax.legend(loc="best", fontsize=7.5)
-    ax.text(0.01, 0.01, "planning estimate; check source levels against local permits",
-            transform=ax.transAxes, fontsize=7.5, color="#666666")
     return save(fig, path)
 
 

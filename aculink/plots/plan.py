@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 
 from aculink.plots.style import (PALETTE, RATE_CMAP, SEABED_COLOUR, SOURCE_MARK, figure, geometry_text, save,
-                                 site_title, styled)
+                                 rate_axes, site_title, styled)
 
 
 @styled
@@ -41,20 +41,11 @@ def plot_plan(ds, site, path):
     none = r_km[np.nan_to_num(best) == 0]
     if none.size:
         ax.plot(none, np.full(none.size, np.nan), ls="", label=f"no workable rate at {none.size} range(s)")
-    finite = np.concatenate([rates.values.ravel(), env / rr * 1000.0])
-    finite = finite[np.isfinite(finite) & (finite > 0)] / 1000.0
-    ax.set_yscale("log")
-    if finite.size:
-        ax.set_ylim(finite.min() / 2.0, finite.max() * 2.0)
-    ax.set_xlim(0, r_km.max() * 1.03)
-    ax.set_xlabel("range (km)")
-    ax.set_ylabel("workable net bit rate (kbit/s)")
+    rate_axes(ax, r_km, np.concatenate([rates.values.ravel(), env / rr * 1000.0]), "workable net bit rate (kbit/s)")
     geo = geometry_text(ds.attrs.get("source_depth_m"), None, None)
     ax.set_title(site_title(site, f"{geo}, receiver {ds.attrs['receiver_depth_m']:g} m deep")
                  + f"\nworkable at BER {ds.attrs['target_ber']:.0e} with {ds.attrs['margin_db']:g} dB margin")
     ax.legend(title="receiver", loc="best", fontsize=7.5)
-    ax.text(0.01, 0.01, "planning estimate; check source levels against local permits",
-            transform=ax.transAxes, fontsize=7.5, color="#666666")
     return save(fig, path)
 
 

@@ -7,6 +7,7 @@ Figures are written atomically as PNG.
 
 from __future__ import annotations
 
+import numpy as np
 import matplotlib
 
 matplotlib.use("Agg")  # files only; no screen is assumed
@@ -109,6 +110,21 @@ def equipment_labels(source_depth_m, receiver_range_m=None, receiver_depth_m=Non
     if receiver_range_m is None:
         return src, None
     return src, f"receiver at {receiver_range_m / 1000:g} km, {receiver_depth_m:g} m deep"
+
+
+def rate_axes(ax, range_km, rates_bps, ylabel):
+    """Range in km on x and a log rate axis in kbit/s on y, framing every positive finite rate
+    (``rates_bps``, any shape) within a factor 2; then the planning caution in the corner."""
+    shown = np.asarray(rates_bps, dtype=float).ravel()
+    shown = shown[np.isfinite(shown) & (shown > 0)] / 1000.0
+    ax.set_yscale("log")
+    if shown.size:
+        ax.set_ylim(shown.min() / 2.0, shown.max() * 2.0)
+    ax.set_xlim(0, np.max(range_km) * 1.03)
+    ax.set_xlabel("range (km)")
+    ax.set_ylabel(ylabel)
+    ax.text(0.01, 0.01, "planning estimate; check source levels against local permits",
+            transform=ax.transAxes, fontsize=7.5, color="#666666")
 
 
 def save(fig, path) -> str:
