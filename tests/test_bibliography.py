@@ -41,9 +41,31 @@ def test_bibliography_entries_are_unique():
     assert len(keys) == len(set(keys))
 
 
-def test_no_pointer_outside_the_repository():
-    """No file in the repository refers to notes that live outside it, or to the issue tracker."""
-    outside = re.compile(r"REFERENCES\.md|PERFORMANCE\.md|shared/|\b[Ii]ssue \d")
+def _markdown_names():
+    return {path.name for path in ROOT.rglob("*.md") if ".venv" not in path.parts}
+
+
+def test_every_markdown_file_named_is_in_the_repository():
+    """A Markdown document that code, tests or docs name must ship with the repository: no
+    pointer to notes that live outside it."""
+    known = _markdown_names()
+    # a document name is capitalised (README.md) or given with its folder (docs/references.md);
+    # that keeps attribute access such as ``x.md`` out
+    named = re.compile(r"(?:[\w.-]+/)+([\w-]+\.md)\b|\b([\w-]*[A-Z][\w-]*\.md)\b")
+    missing = sorted({f"{file.relative_to(ROOT)}: {m.group(0)}" for file, text in _texts()
+                      for m in named.finditer(text) if (m.group(1) or m.group(2)) not in known})
+    assert not missing, missing[:10]
+
+
+def test_no_pointer_to_a_folder_outside_the_repository():
+    """No path climbs out of the checkout (``../``) into a sibling folder."""
     hits = [f"{file.relative_to(ROOT)}: {m.group(0)}" for file, text in _texts()
-            if file.name != "test_bibliography.py" for m in outside.finditer(text)]
+            for m in re.finditer(r"\.\./[A-Za-z]\w*/", text)]
+    assert not hits, hits[:10]
+
+
+def test_no_pointer_to_the_issue_tracker():
+    """Code and docs stand on their own: no "issue N" references."""
+    hits = [f"{file.relative_to(ROOT)}: {m.group(0)}" for file, text in _texts()
+            if file.name != "test_bibliography.py" for m in re.finditer(r"\b[Ii]ssue \d", text)]
     assert not hits, hits[:10]
