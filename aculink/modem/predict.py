@@ -150,18 +150,26 @@ def tracking_lag_s(plan, layout, rs) -> float:
     return 0.5 * plan.n_adapted / plan.step / rs
 
 
-def estimated_samples(q_half, plan) -> int:
-    """T/2 samples of the least-squares channel estimate the ``mmse-dfe`` receiver designs from.
+def estimate_span(q_half, plan) -> tuple[int, int]:
+    """T/2 samples before and after the response's peak that the least-squares channel estimate covers.
 
-    The simulator's front end estimates from ``_ESTIMATE_MARGIN`` samples before the response's
-    start to as many after its end, limited to the 20 dB extent (``plan.pre_symbols``,
-    ``plan.post_symbols``) plus ``_ESTIMATE_TAIL_SYMBOLS`` of pulse tail each side.
+    From ``_ESTIMATE_MARGIN`` samples before the response's start to as many after its end, limited
+    to the 20 dB extent (``plan.pre_symbols``, ``plan.post_symbols``) plus
+    ``_ESTIMATE_TAIL_SYMBOLS`` of pulse tail each side. The simulator's front end estimates over
+    this span (shortened further when the training is too short for it).
     """
     m = int(np.argmax(np.abs(q_half)))
     tail = 2 * _ESTIMATE_TAIL_SYMBOLS + _ESTIMATE_MARGIN
     n_pre = min(m + _ESTIMATE_MARGIN, 2 * plan.pre_symbols + tail)
     n_post = min(np.size(q_half) - 1 - m + _ESTIMATE_MARGIN, 2 * plan.post_symbols + tail)
-    return int(n_pre + n_post + 1)
+    return int(n_pre), int(n_post)
+
+
+def estimated_samples(q_half, plan) -> int:
+    """T/2 samples of the least-squares channel estimate the ``mmse-dfe`` receiver designs from
+    (:func:`estimate_span`)."""
+    n_pre, n_post = estimate_span(q_half, plan)
+    return n_pre + n_post + 1
 
 
 def _design(medium, plan, q_half, rs, beta, extra):

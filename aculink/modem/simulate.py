@@ -26,13 +26,11 @@ from aculink.modem.constellations import check_modulation, constellation
 from aculink.modem.frames import SYNC_SYMBOLS, frame_layout
 from aculink.modem.frontend import shape, synchronise
 from aculink.modem.media import make_medium
-from aculink.modem.predict import DEFAULT_ROLLOFF, predict_link
+from aculink.modem.predict import DEFAULT_ROLLOFF, estimate_span, predict_link
 from aculink.modem.receivers import (check_algorithm, check_receiver, design_for, feedback_delays, pll_gains,
                                      plan_receiver, run_frame)
 from aculink.modem.pulses import raised_cosine
 
-#: Extra T/2 samples around the span in the least-squares channel estimate.
-_ESTIMATE_MARGIN = 4
 #: A frame whose decisions on the known tail marker are wrong more often than this has lost
 #: lock (a cycle slip or a decision-directed capture that the error cannot show): it counts as
 #: failed (common practice, no source: a known postamble as a check of the frame).
@@ -294,11 +292,7 @@ def simulate_link(channel, *, symbol_rate_baud, modulation, receiver, budget=Non
     const = constellation(mod)
     pts = const.points
     k = const.bits_per_symbol
-    m_known = int(np.argmax(np.abs(q_known)))
-    n_pre = (m_known) + _ESTIMATE_MARGIN if receiver != "none" else 0
-    n_post = (q_known.size - 1 - m_known) + _ESTIMATE_MARGIN if receiver != "none" else 0
-    n_pre = min(n_pre, 2 * plan.pre_symbols + 2 * 10 + _ESTIMATE_MARGIN)
-    n_post = min(n_post, 2 * plan.post_symbols + 2 * 10 + _ESTIMATE_MARGIN)
+    n_pre, n_post = estimate_span(q_known, plan) if receiver != "none" else (0, 0)
     # the least-squares estimate needs far more rows (2 per training symbol) than taps: at most
     # one tap per two training symbols, shortened on both sides in proportion
     if n_pre + n_post + 1 > layout.n_train // 2:
