@@ -26,13 +26,14 @@ that closes most often.
 
 from __future__ import annotations
 
+import dataclasses
 import math
 
 import numpy as np
 import xarray as xr
 
 from aculink.cautions import CAUTION
-from aculink.errors import AculinkError, check_range
+from aculink.errors import check_int, check_range
 from aculink.site.variability import (FACTORS, draw_members, enumerate_members, member_site, moved_depth,
                                       nominal_member)
 
@@ -233,9 +234,7 @@ def plan_availability(site, ranges_m, *, depth_m=None, probability=0.9, members=
     from aculink.planning.sweep import candidate_grid, check_geometry
 
     p_main = check_range("availability", probability, 0.0, 1.0, low_open=True, high_open=True)
-    cap = int(check_range("members", members, 1, 100000))
-    if cap != members:
-        raise AculinkError(f"members = {members!r}: expected a whole number in [1, 100000]")
+    cap = check_int("members", members, 1, 100000)
     tol = check_range("tolerance", tolerance, 0.0, 0.5, low_open=True)
     z = float(site.receiver.depth_m) if depth_m is None else check_range("depth_m", depth_m, 0.0, None,
                                                                          low_open=True, unit="m")
@@ -279,7 +278,7 @@ def plan_availability(site, ranges_m, *, depth_m=None, probability=0.9, members=
                 converged = True
                 break
         # a drawn ensemble weighs its members equally
-        member_list = [m.__class__(**{**m.to_dict(), "weight": 1.0 / len(member_list)}) for m in member_list]
+        member_list = [dataclasses.replace(m, weight=1.0 / len(member_list)) for m in member_list]
 
     weights = [m.weight for m in member_list]
     closure, med_rate, best, w = _aggregate(results, weights)

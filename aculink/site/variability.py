@@ -49,7 +49,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from aculink.errors import AculinkError, check_range, closest
+from aculink.errors import AculinkError, check_int, check_range, closest
 
 __all__ = [
     "FACTORS",
@@ -120,9 +120,6 @@ class Member:
         if factor == "position":
             return dataclasses.replace(self, range_offset_m=0.0, depth_offset_m=0.0, source_depth_offset_m=0.0)
         raise AculinkError(f"factor = {factor!r}: choose one of {', '.join(FACTORS)}{closest(factor, FACTORS)}")
-
-    def to_dict(self) -> dict:
-        return dataclasses.asdict(self)
 
 
 @dataclass(frozen=True, eq=False)
@@ -348,8 +345,7 @@ def draw_members(variability: Variability | None, n: int, seed: int) -> list[Mem
     ``k`` members of a longer draw are those of a shorter one (each member has its own stream
     spawned from ``seed``), so an ensemble can grow batch by batch.
     """
-    if n < 1:
-        raise AculinkError(f"members = {n}: allowed range is [1, inf)")
+    n = check_int("members", n, 1)
     var = variability or Variability()
     children = np.random.SeedSequence(int(seed)).spawn(int(n))
     members = []
