@@ -23,7 +23,6 @@ energy spread, the link budget and ``predict_link`` for the candidates that can 
 
 from __future__ import annotations
 
-import dataclasses
 import math
 from dataclasses import dataclass
 
@@ -379,25 +378,6 @@ def _checked(result, n_ranges, n_depths, grid) -> dict:
     out = {k: np.asarray(result[k], dtype=float) for k in POINT_FIELDS + CANDIDATE_FIELDS + ("snr_required_db",)}
     out["error"] = np.asarray(result["error"], dtype=object)
     return out
-
-
-def site_with_wind(site, wind_speed_mps):
-    """A copy of ``site`` with the wind at 10 m set for both the surface and the noise.
-
-    The rms wave height follows the fully developed sea of the new wind (Pierson and
-    Moskowitz 1964), computed by the site stage.
-    """
-    if wind_speed_mps is None:
-        return site
-    from aculink.site.surface import rms_wave_height_pierson_moskowitz
-
-    from aculink.site.model import LIMITS
-
-    w = check_range("wind_mps", wind_speed_mps, *LIMITS["surface"]["wind_speed_mps"][:2], unit="m/s")
-    surface = dataclasses.replace(site.surface, wind_speed_mps=w,
-                                  rms_height_m=float(rms_wave_height_pierson_moskowitz(w)))
-    noise = dataclasses.replace(site.noise, wind_speed_mps=w)
-    return site.replace(surface=surface, noise=noise)
 
 
 def summarise_block(block: dict, grid: CandidateGrid, *, target_ber, margin_db) -> dict:

@@ -25,6 +25,7 @@ from aculink.errors import AculinkError, check_array, check_range
 from aculink.io.atomic import check_output_path
 from aculink.planning import search
 from aculink.planning.checkpoint import Checkpoint, parts_folder
+from aculink.site.surface import site_with_wind
 from aculink.planning.dask_runner import open_runner
 from aculink.planning.dataset import to_dataset
 from aculink.planning.progress import Progress
@@ -133,7 +134,7 @@ def compute_chunk(job: SweepJob, chunk: Chunk) -> dict:
 def _compute_chunk(job: SweepJob, chunk: Chunk) -> dict:
     site = job.site.with_geometry(source_depth_m=float(job.source_depths_m[chunk.source_index]))
     if job.winds_mps is not None:
-        site = search.site_with_wind(site, float(job.winds_mps[chunk.wind_index]))
+        site = site_with_wind(site, float(job.winds_mps[chunk.wind_index]), field="wind_mps")
     ranges = job.ranges_m[chunk.range_start:chunk.range_stop]
     block = search.evaluate_safely(job.evaluate, site, ranges, job.depths_m, job.grid, job.target_ber,
                                    job.margin_db)

@@ -229,12 +229,12 @@ def surface_vertical_velocity_rms(wind_speed_mps, *, height_m=10.0):
     return np.sqrt(PIERSON_MOSKOWITZ_ALPHA * np.sqrt(np.pi / PIERSON_MOSKOWITZ_BETA) / 4.0) * u
 
 
-def site_with_wind(site, wind_speed_mps):
+def site_with_wind(site, wind_speed_mps, *, field="wind speed"):
     """A copy of ``site`` with the wind at 10 m set for both the surface and the noise.
 
     The rms wave height follows the fully developed sea of the new wind
     (:func:`rms_wave_height_pierson_moskowitz`, [PiersonMoskowitz1964]). ``None`` returns the
-    site unchanged.
+    site unchanged. ``field`` names the value in an error message.
 
     Raises
     ------
@@ -248,7 +248,7 @@ def site_with_wind(site, wind_speed_mps):
     from aculink.site.model import LIMITS
 
     low, high, _, _, unit = LIMITS["surface"]["wind_speed_mps"]
-    w = check_range("wind speed", wind_speed_mps, low, high, unit=unit)
+    w = check_range(field, wind_speed_mps, low, high, unit=unit)
     surface = dataclasses.replace(site.surface, wind_speed_mps=w,
                                   rms_height_m=float(rms_wave_height_pierson_moskowitz(w)))
     noise = dataclasses.replace(site.noise, wind_speed_mps=w)
