@@ -194,7 +194,12 @@ def report(rows, summary, wall_s, args) -> None:
     for rx, v in s["snr"].items():
         print(f"  {rx:>8}: n {v['n']:>3}  median {v['median']:+6.2f}  p10 {v['p10']:+6.2f}  p90 {v['p90']:+6.2f}  "
               f"within {v['within']:.0%}  pessimistic {v['pessimistic']:.0%}"
-              f"  (median against the prediction on the row's own fan: {s['snr_own_fan_median'].get(rx)})")
+              f"  (median against the prediction on the row's own fan: {_db(s['snr_own_fan_median'].get(rx))})")
+
+
+def _db(value) -> str:
+    """A dB figure at the precision the benchmark supports (n/a when there is none)."""
+    return "n/a" if value is None else f"{value:+.2f} dB"
 
 
 def diagnose(rows, args) -> None:
