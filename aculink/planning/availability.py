@@ -11,7 +11,8 @@ channel, budget, analytic prediction of every candidate configuration). Per rang
 * the **median-case rate**: the median over members of each member's best rate;
 * an **attribution** of the spread: how much of the variance of the members' best rates (in
   octaves) goes away when one factor is held at its nominal value (common random numbers: the
-  same members, one factor reset).
+  same members, one factor reset), measured on the first :data:`ATTRIBUTION_MEMBERS` members so
+  that it costs at most that many evaluations per factor whatever the ensemble's size.
 
 Members are enumerated exactly when every factor is discrete and the product is small enough;
 otherwise they are drawn from ``seed`` in batches until the 95 % Clopper-Pearson interval
@@ -38,10 +39,14 @@ from aculink.site.variability import (FACTORS, draw_members, enumerate_members, 
                                       nominal_member)
 
 __all__ = ["plan_availability", "closure_interval", "weighted_quantile", "available_rate",
-           "DEFAULT_PROBABILITIES", "BATCH_MEMBERS"]
+           "DEFAULT_PROBABILITIES", "BATCH_MEMBERS", "ATTRIBUTION_MEMBERS"]
 
 #: Probabilities every availability result reports (the requested one is added).
 DEFAULT_PROBABILITIES = (0.5, 0.9, 0.99)
+#: Most members the attribution re-runs with each factor held at its nominal value (the share is
+#: a ratio of two variances over the same members; 16 tell the main factor apart at a fraction
+#: of the cost of the whole ensemble, common practice, no source).
+ATTRIBUTION_MEMBERS = 16
 #: Members drawn per batch before the stopping rule is checked again.
 BATCH_MEMBERS = 8
 #: Rates below this count as this in the octave spread (avoids log of zero), bit/s.
@@ -315,11 +320,14 @@ def plan_availability(site, ranges_m, *, depth_m=None, probability=0.9, members=
     share = np.full((n_r, len(factors)), np.nan)
     closure_fixed = np.full((n_r, len(factors)), np.nan)
     if attribution and factors and n > 1:
-        total = _octave_variance(best, w)
+        sub = member_list[:ATTRIBUTION_MEMBERS]
+        w_sub = np.asarray(weights[:len(sub)], dtype=float)
+        w_sub = w_sub / w_sub.sum()
+        total = _octave_variance(best[:len(sub)], w_sub)
         for f_i, factor in enumerate(factors):
-            fixed = [ens.run(m.at_nominal(factor)) for m in member_list]
-            cl_f, _, best_f, _ = _aggregate(fixed, weights)
-            var_f = _octave_variance(best_f, w)
+            fixed = [ens.run(m.at_nominal(factor)) for m in sub]
+            cl_f, _, best_f, _ = _aggregate(fixed, w_sub)
+            var_f = _octave_variance(best_f, w_sub)
             with np.errstate(invalid="ignore", divide="ignore"):
                 share[:, f_i] = np.where(total > 1e-12, np.clip(1.0 - var_f / total, 0.0, 1.0), 0.0)
             closure_fixed[:, f_i] = np.where(chosen_main >= 0, np.take_along_axis(
@@ -328,7 +336,8 @@ def plan_availability(site, ranges_m, *, depth_m=None, probability=0.9, members=
     ds = _dataset(site, ranges, z, grid, probs, p_main, avail, avail_mod, avail_rx, closure, c_low, c_high,
                   med_rate, member_list, best, nominal, median_best, factors, share, closure_fixed,
                   {"mode": mode, "converged": converged, "tolerance": tol, "seed": int(seed), "cap": cap,
-                   "target_ber": tb, "margin_db": md, "evaluations": len(ens.cache)},
+                   "target_ber": tb, "margin_db": md, "evaluations": len(ens.cache),
+                   "attribution_members": min(n, ATTRIBUTION_MEMBERS) if attribution and factors else 0},
                   [r[3] for r in results])
     return ds
 
@@ -392,7 +401,7 @@ def _dataset(site, ranges, z, grid, probs, p_main, avail, avail_mod, avail_rx, c
             "long_name": "why a member has no result at a range (empty when it has one)"}),
         "spread_share": (("range", "factor"), share, {
             **one, "long_name": "share of the variance of the members' best rates (in octaves) that goes away when "
-                                "this factor is held at its nominal value"}),
+                                "this factor is held at its nominal value (over the first attribution_members members)"}),
         "closure_probability_factor_nominal": (("range", "factor"), closure_fixed, {
             **one, "long_name": "closure probability of the available configuration with this factor held at its "
                                 "nominal value"}),
@@ -416,7 +425,8 @@ def _dataset(site, ranges, z, grid, probs, p_main, avail, avail_mod, avail_rx, c
              "member_cap": info["cap"], "converged": int(bool(info["converged"])), "tolerance": info["tolerance"],
              "seed": info["seed"], "target_ber": info["target_ber"], "margin_db": info["margin_db"],
              "receiver_depth_m": z, "source_depth_m": float(site.source.depth_m),
-             "evaluations": info["evaluations"], "factors": ",".join(factors)}
+             "evaluations": info["evaluations"], "factors": ",".join(factors),
+             "attribution_members": info["attribution_members"]}
     return xr.Dataset(data, coords=coords, attrs=attrs)
 
 

@@ -260,3 +260,31 @@ def test_two_state_wind_matches_each_state_on_the_real_chain():
     known = np.isfinite(expected)
     assert known.sum() > 4
     np.testing.assert_allclose(av["closure_probability"].values[known], expected[known], atol=1e-12)
+
+
+def test_attribution_costs_at_most_its_subset_per_factor():
+    """Holding a factor at nominal re-runs at most ATTRIBUTION_MEMBERS members (the cost bound the
+    README states), and the share is still a fraction in [0, 1]."""
+    from aculink.planning.availability import ATTRIBUTION_MEMBERS
+
+    site = dataclasses.replace(synthetic_eval.make_site(), variability=Variability(
+        range_tolerance_m=400.0, source_depth_tolerance_m=5.0, wind_values_mps=(2.0, 9.0),
+        wind_probabilities=(0.5, 0.5)))
+    av = plan_availability(site, [9000.0], members=40, tolerance=0.001, seed=4, **SYNTH)
+    n, n_f = av.attrs["members"], av.sizes["factor"]
+    assert n == 40 and n_f == 2 and av.attrs["attribution_members"] == ATTRIBUTION_MEMBERS
+    assert av.attrs["evaluations"] <= n + n_f * ATTRIBUTION_MEMBERS + 1
+    share = av["spread_share"].values
+    assert np.all((share >= 0) & (share <= 1))
+
+
+@pytest.mark.parametrize("name", ["shelf_summer", "shelf_winter", "harbour_approach", "polar_calm",
+                                  "deep_channel"])
+def test_bundled_sites_declare_their_variability(name):
+    """Every bundled environment carries a [variability] section (demo numbers) that the loader
+    accepts and that makes at least one factor vary."""
+    from aculink.site.bundled import environments_dir
+    from aculink.site.loader import load_site
+
+    site = load_site(environments_dir() / f"{name}.toml")
+    assert site.variability is not None and len(site.variability.factors) >= 1
