@@ -12,7 +12,12 @@
   approximation), so TL does not jump where roughness removes a path's coherent part.
 * NL(f): ambient noise, the Wenz-curve fits of :func:`aculink.site.noise.noise_psd_db` for the
   site's shipping and wind, plus the site's ``extra_db``, dB re 1 uPa^2/Hz.
-* DI: the receiver's directivity index, dB.
+* DI: the receiver's directivity index, dB: the site's number, or that of the receiver's beam
+  pattern in isotropic noise (:func:`receiver_directivity_index_db`).
+
+With beam patterns (:mod:`aculink.site.transducer`) each path's gain already carries the source's
+response at its launch angle and the receiver's at its arrival angle, so TL(f) here is the loss
+between the axis of the source and the axis of the receiver, paths weighted by the patterns.
 
 Band SNR is signal power over noise power in the band, so the band terms add up exactly:
 ``snr_band_db = source_level_db - tl_db - noise_band_db + directivity_index_db`` with
@@ -128,6 +133,18 @@ class LinkBudget:
         return d
 
 
+def receiver_directivity_index_db(site, carrier_hz: float) -> float:
+    """The receiver's directivity index, dB: the site's number, or its beam pattern's in isotropic
+    noise at the carrier (:func:`aculink.site.transducer.directivity_index_db`, [Urick1983])."""
+    beam = site.receiver.beam
+    if beam is None:
+        return float(site.receiver.directivity_index_db)
+    from aculink.site.transducer import directivity_index_db
+
+    c = float(site.water.profile.speed(np.array([site.receiver.depth_m]))[0])
+    return directivity_index_db(beam, carrier_hz, c)
+
+
 def link_budget(site, channel) -> LinkBudget:
     """The sonar-equation budget of ``channel`` at ``site`` (band and noise from the site).
 
@@ -151,7 +168,7 @@ def link_budget(site, channel) -> LinkBudget:
     shipping, wind, extra = site.noise.shipping, site.noise.wind_speed_mps, site.noise.extra_db
     noise_band = float(noise_band_level_db(fc - b / 2, fc + b / 2, shipping, wind)) + extra
     sl = float(site.source.level_db)
-    di = float(site.receiver.directivity_index_db)
+    di = receiver_directivity_index_db(site, fc)
     reason = ""
     if channel.is_empty:
         tl = tl_coh = np.inf

@@ -235,6 +235,10 @@ class Channel:
 
         launch = take("launch_angle_deg", np.nan).astype(float)
         arrive = take("arrival_angle_deg", np.nan).astype(float)
+        if site.source.beam is not None or site.receiver.beam is not None:
+            from aculink.site.transducer import path_gains
+
+            amp = amp * path_gains(site, launch, arrive, freq, receiver_depth_m=z)
         c_s, c_r = site.water.profile.speed(np.array([site.source.depth_m, z]))
         c_top = float(site.water.profile.speed(np.array([0.0]))[0])
         with np.errstate(invalid="ignore"):

@@ -77,8 +77,8 @@ SECTION_KEYS = {
                "attenuation_db_per_wavelength"),
     "surface": ("wind_speed_mps", "rms_height_m"),
     "noise": ("shipping", "extra_db"),
-    "source": ("depth_m", "level_db", "speed_mps", "directivity_index_db"),
-    "receiver": ("depth_m", "range_m", "speed_mps", "directivity_index_db"),
+    "source": ("depth_m", "level_db", "speed_mps", "directivity_index_db", "beam"),
+    "receiver": ("depth_m", "range_m", "speed_mps", "directivity_index_db", "beam"),
     "modem": ("carrier_hz", "bandwidth_hz", "rolloff", "target_ber", "margin_db"),
 }
 _TOP_KEYS = ("name", "description", "variability")
@@ -486,7 +486,12 @@ def _build_surface(surface):
 
 def _simple(section, table, cls, **extra):
     _check_keys(section, table, SECTION_KEYS[section])
-    return cls(**{k: v for k, v in table.items()}, **extra)
+    values = dict(table)
+    if "beam" in values:
+        from aculink.site.transducer import parse_beam
+
+        values["beam"] = parse_beam(values["beam"], f"[{section}.beam]")
+    return cls(**values, **extra)
 
 
 def _check_geometry(seabed, source, receiver):

@@ -215,6 +215,8 @@ class Source:
     level_db: float = 180.0
     speed_mps: float = 0.0
     directivity_index_db: float = 0.0
+    #: Elevation pattern (:class:`aculink.site.transducer.BeamPattern`); None: omnidirectional.
+    beam: object = None
 
     def __post_init__(self):
         _check_fields(self, "source")
@@ -228,9 +230,15 @@ class Receiver:
     range_m: float
     speed_mps: float = 0.0
     directivity_index_db: float = 0.0
+    #: Elevation pattern (:class:`aculink.site.transducer.BeamPattern`); None: omnidirectional.
+    #: With a pattern the directivity index is the pattern's (leave ``directivity_index_db`` at 0).
+    beam: object = None
 
     def __post_init__(self):
         _check_fields(self, "receiver")
+        if self.beam is not None and self.directivity_index_db != 0.0:
+            raise AculinkError("[receiver] directivity_index_db and beam: give one (a beam pattern has its own "
+                               "directivity index)")
 
 
 @dataclass(frozen=True)
