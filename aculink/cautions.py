@@ -1,5 +1,7 @@
 """The caution every high-level output carries, in one place."""
 
+__all__ = ["CAUTION", "CAUTION_LINE"]
+
 #: One line for tables, summaries and reports a reader acts on.
 CAUTION = ("Planning estimate only, not a substitute for sea trials. Sound in water can harm marine "
            "mammals, fish and divers; many waters need a permit for acoustic emission. Follow local "

@@ -4,6 +4,11 @@ One place for every number the physics shares; modules import from here rather t
 repeating literals.
 """
 
+__all__ = ["GRAVITY_MPS2", "REFERENCE_PRESSURE_PA", "SEAWATER_DENSITY_KGM3", "NOMINAL_SOUND_SPEED_MPS",
+           "DB_PER_WAVELENGTH_PER_LOSS_PARAMETER", "WIND_19P5_OVER_10", "PIERSON_MOSKOWITZ_ALPHA",
+           "PIERSON_MOSKOWITZ_BETA", "SOURCE_LEVEL_DB_PER_WATT", "RATE_RANGE_ENVELOPE_SHALLOW_KM_KBPS",
+           "RATE_RANGE_ENVELOPE_DEEP_KM_KBPS"]
+
 #: Standard acceleration of gravity, m/s^2 (CGPM 1901, the conventional value).
 GRAVITY_MPS2 = 9.80665
 

@@ -12,6 +12,8 @@ import difflib
 import math
 from typing import Iterable
 
+__all__ = ["AculinkError", "closest", "check_range", "check_int", "check_array", "validity_note"]
+
 
 class AculinkError(ValueError):
     """A user-caused error; its message is one line naming the field, value and allowed range."""

@@ -41,6 +41,8 @@ from aculink.channel.stats import mean_square_transfer
 from aculink.errors import check_range
 from aculink.site.noise import noise_band_level_db, noise_psd_db as _wenz_psd_db
 
+__all__ = ["LinkBudget", "receiver_directivity_index_db", "link_budget"]
+
 _N_GRID = 513
 
 

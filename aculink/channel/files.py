@@ -31,6 +31,8 @@ import numpy as np
 from aculink.channel.model import Channel
 from aculink.errors import AculinkError
 
+__all__ = ["load_channel_file"]
+
 _GAIN_FORMS = (("real", "imag"), ("magnitude", "phase_rad"))
 _META = ("carrier_hz", "bandwidth_hz", "symbol_rate_baud")
 

@@ -34,6 +34,8 @@ from aculink.channel.pulses import raised_cosine_spectrum
 from aculink.channel.variation import SurfaceMotion, doppler_factors, scattered_doppler_spread_hz
 from aculink.errors import AculinkError, check_range
 
+__all__ = ["IMPULSE_RESPONSE_ROLLOFF", "Fluctuation", "SymbolTaps", "Channel", "channel_for_site"]
+
 #: Roll-off of the band taper used by :meth:`Channel.impulse_response` (flat over the band).
 IMPULSE_RESPONSE_ROLLOFF = 0.25
 

@@ -6,6 +6,8 @@ import numpy as np
 
 from aculink.errors import AculinkError, check_range
 
+__all__ = ["colored_noise"]
+
 #: Lowest passband frequency at which the spectrum is evaluated, Hz: baseband bins that map to
 #: fc + f <= 0 (a sample rate above twice the carrier) take the level at this frequency.
 _LOWEST_HZ = 1.0

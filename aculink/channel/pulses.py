@@ -19,6 +19,8 @@ import numpy as np
 
 from aculink.errors import check_range
 
+__all__ = ["raised_cosine", "raised_cosine_spectrum", "root_raised_cosine"]
+
 
 def _rolloff(rolloff) -> float:
     return check_range("rolloff", rolloff, 0.0, 1.0, low_open=True)

@@ -17,6 +17,8 @@ from __future__ import annotations
 
 import numpy as np
 
+__all__ = ["window_length", "interpolation_weights", "interpolate_gain", "path_windows", "assemble"]
+
 #: Relative size of the pulse tail that a response window may leave out (common practice).
 _TAIL_TOLERANCE = 1e-5
 _MAX_WINDOW = 1 << 14

@@ -40,6 +40,9 @@ from scipy import optimize
 
 from aculink.channel.variation import scattered_correlation
 
+__all__ = ["SIGNIFICANT_DB", "path_powers", "rms_delay_spread", "energy_spread", "coherence_bandwidth",
+           "channel_statistics", "mean_square_transfer", "doppler_statistics"]
+
 #: Significant-path threshold below the strongest path, dB (common practice, no source).
 SIGNIFICANT_DB = 20.0
 

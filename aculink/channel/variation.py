@@ -51,6 +51,10 @@ import numpy as np
 
 from aculink.site.surface import pierson_moskowitz_spectrum
 
+__all__ = ["N_COMPONENTS", "doppler_factors", "SurfaceMotion", "surface_phase_std",
+           "surface_doppler_spread_hz", "scattered_doppler_spread_hz", "scattered_correlation",
+           "surface_gain_factors"]
+
 #: Number of spectral components of the surface process and their span around the peak.
 N_COMPONENTS = 96
 _SPAN_BELOW, _SPAN_ABOVE = 0.45, 8.0

@@ -13,6 +13,8 @@ from aculink import __version__
 
 from aculink.cautions import CAUTION
 
+__all__ = ["CANDIDATE_DIMS", "VARIABLES", "coordinates", "to_dataset"]
+
 #: Candidate axes, in the order the evaluator fills them.
 CANDIDATE_DIMS = ("receiver", "symbol_rate", "modulation")
 

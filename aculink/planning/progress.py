@@ -9,6 +9,8 @@ from __future__ import annotations
 import sys
 import time
 
+__all__ = ["Progress"]
+
 
 def _clock(seconds: float) -> str:
     seconds = max(0, int(round(seconds)))

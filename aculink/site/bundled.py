@@ -6,6 +6,8 @@ from pathlib import Path
 
 from aculink.errors import AculinkError, closest
 
+__all__ = ["environments_dir", "bundled_names", "bundled_site_path"]
+
 
 def environments_dir() -> Path:
     """The folder holding the bundled site files.

@@ -24,6 +24,8 @@ from scipy.interpolate import PchipInterpolator
 from aculink.errors import AculinkError
 from aculink.site import _profile_kernels as _k
 
+__all__ = ["SoundSpeedProfile"]
+
 
 @dataclass(frozen=True, eq=False)
 class SoundSpeedProfile:
