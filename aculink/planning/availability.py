@@ -38,7 +38,7 @@ from aculink.errors import check_int, check_range
 from aculink.site.variability import (FACTORS, draw_members, enumerate_members, member_site, moved_depth,
                                       nominal_member)
 
-__all__ = ["plan_availability", "closure_interval", "weighted_quantile", "available_rate",
+__all__ = ["plan_availability", "evaluate_member", "closure_interval", "weighted_quantile", "available_rate",
            "DEFAULT_PROBABILITIES", "BATCH_MEMBERS", "ATTRIBUTION_MEMBERS"]
 
 #: Probabilities every availability result reports (the requested one is added).
@@ -112,16 +112,52 @@ def available_rate(closure, rate, probability):
     return idx, best
 
 
+@dataclasses.dataclass(frozen=True)
+class _Shared:
+    """What every member evaluation needs (sent once to each worker)."""
+
+    site: object
+    ranges: np.ndarray
+    depth: float
+    grid: object
+    target_ber: float
+    margin_db: float
+    evaluate: object
+
+
+def evaluate_member(shared: _Shared, member):
+    """One member's (workable (R, C) bool, rate (R, C), best rate (R,), error (R,)).
+
+    A module-level function, so that Dask workers can run it; it depends only on its arguments,
+    which is why serial and distributed ensembles give the same numbers.
+    """
+    from aculink.planning import search
+
+    evaluate = search.evaluate_block if shared.evaluate is None else shared.evaluate
+    site = member_site(shared.site, member)
+    max_r = site.seabed.max_range_m
+    ranges = np.clip(shared.ranges + member.range_offset_m, 1.0, max_r if math.isfinite(max_r) else None)
+    ranges = np.maximum.accumulate(ranges)  # clipping may tie neighbours; keep them ordered
+    ranges = ranges + 1e-6 * np.arange(ranges.size)
+    shallowest = float(np.min(site.seabed.depth_at(ranges)))
+    depth = moved_depth(shared.depth, member.depth_offset_m, shallowest)
+    block = search.evaluate_safely(evaluate, site, ranges, [depth], shared.grid, shared.target_ber, math.inf)
+    sel = search.select_workable(block["snr_out_db"], block["ber_predicted"], block["net_bit_rate_bps"],
+                                 block["snr_required_db"], target_ber=shared.target_ber, margin_db=shared.margin_db)
+    n = len(shared.ranges)
+    workable = sel["workable"][:, 0].reshape(n, -1)
+    rate = np.asarray(block["net_bit_rate_bps"], dtype=float)[:, 0].reshape(n, -1)
+    best = np.where(workable, rate, 0.0).max(axis=-1)
+    failed = np.asarray(block["error"])[:, 0] != ""
+    return workable & ~failed[:, None], rate, np.where(failed, 0.0, best), np.asarray(block["error"])[:, 0]
+
+
 class _Ensemble:
-    """Member evaluations, cached by what the member changes (so attribution reuses them)."""
+    """Member evaluations, cached by what the member changes (so attribution reuses them), run
+    a batch at a time on the runner (serial, or Dask workers)."""
 
-    def __init__(self, site, ranges, depth, grid, target_ber, margin_db, evaluate):
-        from aculink.planning import search
-
-        self.search = search
-        self.site, self.ranges, self.depth = site, ranges, depth
-        self.grid, self.tb, self.md = grid, target_ber, margin_db
-        self.evaluate = search.evaluate_block if evaluate is None else evaluate
+    def __init__(self, shared, runner):
+        self.shared, self.runner = shared, runner
         self.cache = {}
 
     @staticmethod
@@ -129,30 +165,21 @@ class _Ensemble:
         return (member.water, member.seabed, member.wind_mps, member.tide_m, member.range_offset_m,
                 member.depth_offset_m, member.source_depth_offset_m)
 
-    def run(self, member):
-        """(workable (R, C) bool, rate (R, C), best rate (R,)) for one member."""
-        key = self.key(member)
-        if key not in self.cache:
-            self.cache[key] = self._evaluate(member)
-        return self.cache[key]
+    def run_all(self, members) -> list:
+        """Results of ``members``, in their order (new ones evaluated together on the runner)."""
+        todo, seen = [], set()
+        for m in members:
+            k = self.key(m)
+            if k not in self.cache and k not in seen:
+                seen.add(k)
+                todo.append(m)
+        if todo:
+            self.runner.run(evaluate_member, self.shared, todo,
+                            lambda m, result: self.cache.__setitem__(self.key(m), result), name="member")
+        return [self.cache[self.key(m)] for m in members]
 
-    def _evaluate(self, member):
-        site = member_site(self.site, member)
-        max_r = site.seabed.max_range_m
-        ranges = np.clip(self.ranges + member.range_offset_m, 1.0, max_r if math.isfinite(max_r) else None)
-        ranges = np.maximum.accumulate(ranges)  # clipping may tie neighbours; keep them ordered
-        ranges = ranges + 1e-6 * np.arange(ranges.size)
-        shallowest = float(np.min(site.seabed.depth_at(ranges)))
-        depth = moved_depth(self.depth, member.depth_offset_m, shallowest)
-        block = self.search.evaluate_safely(self.evaluate, site, ranges, [depth], self.grid, self.tb, math.inf)
-        sel = self.search.select_workable(block["snr_out_db"], block["ber_predicted"], block["net_bit_rate_bps"],
-                                          block["snr_required_db"], target_ber=self.tb, margin_db=self.md)
-        n = len(self.ranges)
-        workable = sel["workable"][:, 0].reshape(n, -1)
-        rate = np.asarray(block["net_bit_rate_bps"], dtype=float)[:, 0].reshape(n, -1)
-        best = np.where(workable, rate, 0.0).max(axis=-1)
-        failed = np.asarray(block["error"])[:, 0] != ""
-        return workable & ~failed[:, None], rate, np.where(failed, 0.0, best), np.asarray(block["error"])[:, 0]
+    def run(self, member):
+        return self.run_all([member])[0]
 
 
 def _aggregate(results, weights):
@@ -202,7 +229,8 @@ def _settled(closure, rate, n, probability, tolerance) -> bool:
 
 def plan_availability(site, ranges_m, *, depth_m=None, probability=0.9, members=64, tolerance=0.05,
                       seed=0, receivers="all", target_ber=None, margin_db=None, modulations=None,
-                      symbol_rates_baud=None, evaluate=None, attribution=True, progress=None):
+                      symbol_rates_baud=None, evaluate=None, attribution=True, progress=None,
+                      workers=0, scheduler=None):
     """The rate available with probability ``probability`` at each range, over the site's variability.
 
     Parameters
@@ -228,7 +256,11 @@ def plan_availability(site, ranges_m, *, depth_m=None, probability=0.9, members=
     attribution : bool
         Also re-run the members with each declared factor held at its nominal value.
     progress : callable, optional
-        ``progress(done, total)`` after each member.
+        ``progress(done, total)`` after each batch of members.
+    workers, scheduler
+        Where the members run: serially (``workers`` 0 or 1, the default), on a local Dask
+        cluster of ``workers`` processes, or on the Dask scheduler at ``scheduler``
+        (:func:`aculink.planning.dask_runner.open_runner`). The numbers do not depend on it.
 
     Returns
     -------
@@ -250,88 +282,91 @@ def plan_availability(site, ranges_m, *, depth_m=None, probability=0.9, members=
     md = check_range("margin_db", site.modem.margin_db if margin_db is None else margin_db, 0.0, 40.0, unit="dB")
     probs = tuple(sorted(set(DEFAULT_PROBABILITIES) | {p_main}))
     var = getattr(site, "variability", None)
-    ens = _Ensemble(site, ranges, z, grid, tb, md, evaluate)
+    shared = _Shared(site, ranges, z, grid, tb, md, evaluate)
+    from aculink.planning.dask_runner import open_runner
 
-    if var is None or not var.factors:
-        mode, member_list = "nominal", [nominal_member()]
-    elif var.is_discrete and var.enumeration_size() <= cap:
-        mode, member_list = "enumerated", enumerate_members(var, seed)
-    else:
-        mode, member_list = "drawn", None
+    with open_runner(workers=workers, scheduler=scheduler, n_points=cap * len(ranges), n_tasks=cap) as runner:
+        ens = _Ensemble(shared, runner)
 
-    results = []
-    if member_list is not None:
-        for i, m in enumerate(member_list):
-            results.append(ens.run(m))
+        if var is None or not var.factors:
+            mode, member_list = "nominal", [nominal_member()]
+        elif var.is_discrete and var.enumeration_size() <= cap:
+            mode, member_list = "enumerated", enumerate_members(var, seed)
+        else:
+            mode, member_list = "drawn", None
+
+        results = []
+        if member_list is not None:
+            results = ens.run_all(member_list)
             if progress:
-                progress(i + 1, len(member_list))
-        converged = True
-    else:
-        converged = False
-        drawn = draw_members(var, cap, seed)
-        member_list = []
-        while len(member_list) < cap:
-            batch = drawn[len(member_list):len(member_list) + BATCH_MEMBERS]
-            for m in batch:
-                results.append(ens.run(m))
-                member_list.append(m)
+                progress(len(member_list), len(member_list))
+            converged = True
+        else:
+            converged = False
+            drawn = draw_members(var, cap, seed)
+            member_list = []
+            while len(member_list) < cap:
+                batch = drawn[len(member_list):len(member_list) + BATCH_MEMBERS]
+                results.extend(ens.run_all(batch))
+                member_list.extend(batch)
                 if progress:
                     progress(len(member_list), cap)
-            n = len(member_list)
-            closure, med_rate, _, _ = _aggregate(results, [1.0] * n)
-            if n >= 2 * BATCH_MEMBERS and _settled(closure, med_rate, n, p_main, tol):
-                converged = True
-                break
-        # a drawn ensemble weighs its members equally
-        member_list = [dataclasses.replace(m, weight=1.0 / len(member_list)) for m in member_list]
+                n = len(member_list)
+                closure, med_rate, _, _ = _aggregate(results, [1.0] * n)
+                if n >= 2 * BATCH_MEMBERS and _settled(closure, med_rate, n, p_main, tol):
+                    converged = True
+                    break
+            # a drawn ensemble weighs its members equally
+            member_list = [dataclasses.replace(m, weight=1.0 / len(member_list)) for m in member_list]
 
-    weights = [m.weight for m in member_list]
-    closure, med_rate, best, w = _aggregate(results, weights)
-    n = len(member_list)
-    if mode == "drawn":
-        c_low, c_high = closure_interval(np.round(closure * n), n)
-    else:
-        c_low, c_high = closure.copy(), closure.copy()
+        weights = [m.weight for m in member_list]
+        closure, med_rate, best, w = _aggregate(results, weights)
+        n = len(member_list)
+        if mode == "drawn":
+            c_low, c_high = closure_interval(np.round(closure * n), n)
+        else:
+            c_low, c_high = closure.copy(), closure.copy()
 
-    k, s, mm = grid.shape
-    n_r = len(ranges)
-    avail = {key: np.zeros((n_r, len(probs)), dtype=float) for key in
-             ("rate", "closure", "low", "high", "symbol_rate")}
-    avail_mod = np.full((n_r, len(probs)), "", dtype=object)
-    avail_rx = np.full((n_r, len(probs)), "", dtype=object)
-    chosen_main = None
-    for j, p in enumerate(probs):
-        idx, rate = available_rate(closure, med_rate, p)
-        ok = idx >= 0
-        take = np.maximum(idx, 0)[:, None]
-        avail["rate"][:, j] = rate
-        for name, arr in (("closure", closure), ("low", c_low), ("high", c_high)):
-            avail[name][:, j] = np.where(ok, np.take_along_axis(arr, take, axis=1)[:, 0], np.nan)
-        rx_i, rs_i, mod_i = np.unravel_index(np.maximum(idx, 0), (k, s, mm))
-        avail["symbol_rate"][:, j] = np.where(ok, np.asarray(grid.symbol_rates_baud)[rs_i], np.nan)
-        avail_mod[:, j] = np.where(ok, np.asarray(grid.modulations, dtype=object)[mod_i], "")
-        avail_rx[:, j] = np.where(ok, np.asarray(grid.receivers, dtype=object)[rx_i], "")
-        if p == p_main:
-            chosen_main = idx
+        k, s, mm = grid.shape
+        n_r = len(ranges)
+        avail = {key: np.zeros((n_r, len(probs)), dtype=float) for key in
+                 ("rate", "closure", "low", "high", "symbol_rate")}
+        avail_mod = np.full((n_r, len(probs)), "", dtype=object)
+        avail_rx = np.full((n_r, len(probs)), "", dtype=object)
+        chosen_main = None
+        for j, p in enumerate(probs):
+            idx, rate = available_rate(closure, med_rate, p)
+            ok = idx >= 0
+            take = np.maximum(idx, 0)[:, None]
+            avail["rate"][:, j] = rate
+            for name, arr in (("closure", closure), ("low", c_low), ("high", c_high)):
+                avail[name][:, j] = np.where(ok, np.take_along_axis(arr, take, axis=1)[:, 0], np.nan)
+            rx_i, rs_i, mod_i = np.unravel_index(np.maximum(idx, 0), (k, s, mm))
+            avail["symbol_rate"][:, j] = np.where(ok, np.asarray(grid.symbol_rates_baud)[rs_i], np.nan)
+            avail_mod[:, j] = np.where(ok, np.asarray(grid.modulations, dtype=object)[mod_i], "")
+            avail_rx[:, j] = np.where(ok, np.asarray(grid.receivers, dtype=object)[rx_i], "")
+            if p == p_main:
+                chosen_main = idx
 
-    nominal = ens.run(nominal_member())[2]
-    median_best = weighted_quantile(best, w, 0.5, axis=0)
-    factors = tuple(var.factors) if var is not None else ()
-    share = np.full((n_r, len(factors)), np.nan)
-    closure_fixed = np.full((n_r, len(factors)), np.nan)
-    if attribution and factors and n > 1:
-        sub = member_list[:ATTRIBUTION_MEMBERS]
-        w_sub = np.asarray(weights[:len(sub)], dtype=float)
-        w_sub = w_sub / w_sub.sum()
-        total = _octave_variance(best[:len(sub)], w_sub)
-        for f_i, factor in enumerate(factors):
-            fixed = [ens.run(m.at_nominal(factor)) for m in sub]
-            cl_f, _, best_f, _ = _aggregate(fixed, w_sub)
-            var_f = _octave_variance(best_f, w_sub)
-            with np.errstate(invalid="ignore", divide="ignore"):
-                share[:, f_i] = np.where(total > 1e-12, np.clip(1.0 - var_f / total, 0.0, 1.0), 0.0)
-            closure_fixed[:, f_i] = np.where(chosen_main >= 0, np.take_along_axis(
-                cl_f, np.maximum(chosen_main, 0)[:, None], axis=1)[:, 0], np.nan)
+        nominal = ens.run(nominal_member())[2]
+        median_best = weighted_quantile(best, w, 0.5, axis=0)
+        factors = tuple(var.factors) if var is not None else ()
+        share = np.full((n_r, len(factors)), np.nan)
+        closure_fixed = np.full((n_r, len(factors)), np.nan)
+        if attribution and factors and n > 1:
+            sub = member_list[:ATTRIBUTION_MEMBERS]
+            w_sub = np.asarray(weights[:len(sub)], dtype=float)
+            w_sub = w_sub / w_sub.sum()
+            total = _octave_variance(best[:len(sub)], w_sub)
+            held = ens.run_all([m.at_nominal(f) for f in factors for m in sub])
+            for f_i in range(len(factors)):
+                fixed = held[f_i * len(sub):(f_i + 1) * len(sub)]
+                cl_f, _, best_f, _ = _aggregate(fixed, w_sub)
+                var_f = _octave_variance(best_f, w_sub)
+                with np.errstate(invalid="ignore", divide="ignore"):
+                    share[:, f_i] = np.where(total > 1e-12, np.clip(1.0 - var_f / total, 0.0, 1.0), 0.0)
+                closure_fixed[:, f_i] = np.where(chosen_main >= 0, np.take_along_axis(
+                    cl_f, np.maximum(chosen_main, 0)[:, None], axis=1)[:, 0], np.nan)
 
     ds = _dataset(site, ranges, z, grid, probs, p_main, avail, avail_mod, avail_rx, closure, c_low, c_high,
                   med_rate, member_list, best, nominal, median_best, factors, share, closure_fixed,

@@ -288,3 +288,29 @@ def test_bundled_sites_declare_their_variability(name):
 
     site = load_site(environments_dir() / f"{name}.toml")
     assert site.variability is not None and len(site.variability.factors) >= 1
+
+
+@pytest.mark.slow
+def test_members_on_a_local_dask_cluster_give_the_serial_numbers():
+    """Members evaluated on two local Dask workers give the serial dataset exactly (each member
+    depends only on its own draw; results are placed by member, not by arrival order)."""
+    site = dataclasses.replace(synthetic_eval.make_site(), variability=Variability(
+        range_tolerance_m=400.0, wind_values_mps=(2.0, 9.0), wind_probabilities=(0.5, 0.5)))
+    kw = {**SYNTH, "members": 24, "tolerance": 0.001, "seed": 5}
+    serial = plan_availability(site, [5000.0, 12000.0], **kw)
+    local = plan_availability(site, [5000.0, 12000.0], workers=2, **kw)
+    assert serial.drop_vars("member_error").identical(local.drop_vars("member_error"))
+
+
+def test_bad_workers_are_refused_before_any_member_runs():
+    site = dataclasses.replace(synthetic_eval.make_site(), variability=Variability(range_tolerance_m=400.0))
+    calls = []
+
+    def counting(*args, **kw):
+        calls.append(1)
+        return synthetic_eval.evaluate(*args, **kw)
+
+    with pytest.raises(AculinkError, match="workers"):
+        plan_availability(site, [5000.0], members=8, workers=-1, evaluate=counting,
+                          modulations=["bpsk"], receivers=["dfe"])
+    assert not calls
