@@ -26,17 +26,28 @@ equals the q of the ray-centred (p, q) system with p0 = 1/c0, q0 = 0 (Jensen et 
 so the pressure relative to 1 m from the source is |A| = sqrt(c cos(theta0) / (c0 r |q|)), which is
 1/distance near the source.
 
-The integrator is the classical fourth-order Runge-Kutta method with a fixed arc-length step
-``ds``. The sound-speed profile is C1 (PCHIP), so RK4 keeps travel-time errors near a microsecond at
-10 km with 5 m steps (the measured figures are in tests/benchmarks/bench_rays.py).
-Every step also stays inside one cubic piece of the profile: it is shortened to end on the next
-profile knot (predicted from the quadratic Taylor expansion of z(s)), because d2c/dz2 of the C1
-profile jumps at knots and a step straddling one loses RK4's order (measured: 15 us instead of 0.02 us
-of travel-time error at 4 km in the bundled summer-shelf cast, and 10% errors in the spreading).
-Boundaries, turning points, seabed vertices and receiver ranges are *events*: when a trial step
-crosses one, the step is shortened to land on it (tangent prediction, then Newton corrections on the
-step length, each an RK4 step from the same start), which keeps landing errors far below 1 us instead
-of the 20-40 us a plain tangent prediction leaves.
+The integrator is the classical fourth-order Runge-Kutta method with a controlled arc-length step
+of at most ``ds``:
+
+* **Error control.** The end point's rates (the next step's first stage, so free when the step is
+  accepted) give with the RK4 stages an embedded third-order solution; the difference h/6 (k4 - k5)
+  estimates the local error ([Hairer1993] sect. II.4). Positions, c times the travel time and the
+  maximum step times the ray angle are held to ``tol`` metres per step; a step over it is retried
+  shorter, and the proposal doubles or halves with the thresholds of the (1/err)^(1/4) rule.
+* **Snell projection.** After every step zeta is put back on xi^2 + zeta^2 = 1/c(z)^2 (a
+  projection method, [Hairer2006] sect. IV.4). The drift off it is tiny per step, but it moves the
+  turning depth of a ray that turns in a weak gradient (a summer mixed layer), and the cycle phase
+  error grows with every cycle: in the bundled summer-shelf cast with 5 m steps the projection takes
+  the travel-time error at 10 km from 4.2 us (99th percentile; 39 us worst) to 0.04 us (measured
+  in tests/benchmarks/bench_rays.py).
+* **Profile knots.** Every step stays inside one cubic piece of the profile: it is shortened to end
+  on the next knot (predicted from the quadratic Taylor expansion of z(s)), because d2c/dz2 of the
+  C1 profile jumps at knots and a step straddling one loses RK4's order (measured: 15 us instead of
+  0.02 us of travel-time error at 4 km, and 10% errors in the spreading).
+* **Events.** Boundaries, turning points, seabed vertices and receiver ranges are *events*: when a
+  trial step crosses one, the crossing is found on the step's cubic Hermite interpolant (dense
+  output from both end points' rates, [Hairer1993] sect. II.6) and the step is redone once to that
+  length; RK4-Newton corrections on the step length follow only if it missed by more than 1e-8 m.
 
 At a reflection the slowness vector is mirrored about the boundary (the local seabed slope) and the
 dynamic-ray vector is carried across with the saltation (jump) rule of a discontinuous dynamical
@@ -59,6 +70,10 @@ F. B. Jensen, W. A. Kuperman, M. B. Porter and H. Schmidt, Computational Ocean A
 (Springer, 2011), ch. 3 (ray equations in arc length, dynamic ray tracing, caustic phase).
 V. Cerveny, Seismic Ray Theory (Cambridge University Press, 2001), sect. 4.2 (dynamic ray tracing in
 Cartesian coordinates) and sect. 4.4 (transformation at interfaces).
+E. Hairer, S. P. Norsett and G. Wanner, Solving Ordinary Differential Equations I, 2nd ed. (Springer,
+1993), sect. II.4 (step size control), II.6 (dense output) [Hairer1993].
+E. Hairer, C. Lubich and G. Wanner, Geometric Numerical Integration, 2nd ed. (Springer, 2006),
+sect. IV.4 (projection methods) [Hairer2006].
 A. F. Filippov, Differential Equations with Discontinuous Righthand Sides (Kluwer, 1988) and
 R. I. Leine and H. Nijmeijer, Dynamics and Bifurcations of Non-Smooth Mechanical Systems (Springer,
 2004), sect. 3.5 (the saltation matrix used at reflections).
@@ -88,7 +103,7 @@ N_INFO = 7
 #: ``ab_db`` is (n_freq, n_bins): absorption in dB/m per depth bin for each frequency; the loss at
 #: frequency m > 0 goes to record column :func:`abs_column` (m).
 KernelMedium = namedtuple("KernelMedium", ["knots", "coef", "bed_r", "bed_z", "bed_slope", "bt_step", "bt_re",
-                                           "bt_im", "ab_dz", "ab_db", "ds", "floor_mag"])
+                                           "bt_im", "ab_dz", "ab_db", "ds", "tol", "floor_mag"])
 
 
 def record_width(n_freq):
@@ -108,11 +123,26 @@ END_STEPS = 3  # step budget used up
 
 # Event kinds inside one step.
 _EV_NONE, _EV_SURFACE, _EV_BOTTOM, _EV_RANGE, _EV_TURN = 0, 1, 2, 3, 4
-_NEWTON_ITERATIONS = 4
-_LAND_TOL_M = 1e-10
+# RK4-Newton corrections after the interpolated landing (rarely more than none are needed)
+_NEWTON_ITERATIONS = 3
+_LAND_TOL_M = 1e-8
+# iterations of the root search on the step's cubic Hermite interpolant
+_HERMITE_ITERATIONS = 40
+_HERMITE_TOL_M = 1e-12  # along the path
 # a ray this close (along its path) to the knot it is heading to is taken to be on it: a step that
 # aimed at a knot ends within about 1e-5 m of it, and straddling it by so little costs nothing
 _KNOT_MIN_STEP_M = 1e-3
+# step control: never below this step (m), shrink/grow factors per step and the safety factor
+_H_MIN_M = 1e-3
+_SHRINK_MIN, _SAFETY = 0.2, 0.9
+_DOUBLE_BELOW = (_SAFETY / 2.0) ** 4  # a step twice as long would have an error ratio below 0.66
+_HALVE_ABOVE = _SAFETY ** 4
+# largest relative change of zeta the Snell projection makes (larger: near a turning point, skipped)
+_PROJECT_MAX_REL = 1e-4
+
+# Arithmetic of the stages may be reassociated and contracted (FMA); NaN/Inf semantics are kept, and
+# the event and root-finding logic below is compiled without any fast-math flag.
+_FAST = {"contract", "arcp", "nsz", "reassoc"}
 
 
 @nb.njit(cache=True, inline="always", error_model="numpy")
@@ -128,34 +158,43 @@ def _eval_piece(z, knots, coef, i):
     return c, dc, d2c
 
 
-@nb.njit(cache=True, inline="always", error_model="numpy")
-def _rhs(z, zeta, dz, dzeta, xi, dxi, knots, coef, piece):
-    """Right-hand side of the ray and variational equations at one state (profile piece fixed)."""
-    c, cz, czz = _eval_piece(z, knots, coef, piece)
-    inv = 1.0 / c
-    fx = c * xi
-    fz = c * zeta
-    fzeta = -cz * inv * inv
+@nb.njit(cache=True, fastmath=_FAST, error_model="numpy")
+def _rates(c, cz, czz, inv, zeta, dz, dzeta, xi, dxi):
+    """Right-hand side of the ray and variational equations from c, dc/dz, d2c/dz2 and 1/c.
+
+    Returns dx/ds, dz/ds, dzeta/ds, dt/ds, d(dx)/ds, d(dz)/ds, d(dzeta)/ds, d(dt)/ds.
+    """
+    inv2 = inv * inv
+    fzeta = -cz * inv2
     fdx = cz * dz * xi + c * dxi
     fdz = cz * dz * zeta + c * dzeta
-    fdzeta = -(czz - 2.0 * cz * cz * inv) * inv * inv * dz
-    fdt = -cz * inv * inv * dz
-    return fx, fz, fzeta, inv, fdx, fdz, fdzeta, fdt, c, cz
+    fdzeta = -(czz - 2.0 * cz * cz * inv) * inv2 * dz
+    return c * xi, c * zeta, fzeta, inv, fdx, fdz, fdzeta, fzeta * dz
 
 
-@nb.njit(cache=True, inline="always", error_model="numpy")
+@nb.njit(cache=True, fastmath=_FAST, error_model="numpy")
+def _rhs(z, zeta, dz, dzeta, xi, dxi, knots, coef, piece):
+    """:func:`_rates` at one state (profile piece fixed), then c, dc/dz, d2c/dz2 there."""
+    c, cz, czz = _eval_piece(z, knots, coef, piece)
+    inv = 1.0 / c
+    fx, fz, fe, ft, fa, fb, fc, fd = _rates(c, cz, czz, inv, zeta, dz, dzeta, xi, dxi)
+    return fx, fz, fe, ft, fa, fb, fc, fd, c, cz, czz
+
+
+@nb.njit(cache=True, fastmath=_FAST, error_model="numpy")
 def _rk4(x, z, zeta, t, dx, dz, dzeta, dt, xi, dxi, h, k1x, k1z, k1e, k1t, k1a, k1b, k1c, k1d, knots, coef,
          piece):
     """One classical RK4 step of length h (arc length, m), given the first stage ``k1``; every stage
-    uses profile piece ``piece``, the one the step lies in."""
+    uses profile piece ``piece``, the one the step lies in. Returns the new state and the last stage's
+    (dx/ds, dz/ds, dzeta/ds, dt/ds), which the error estimate needs."""
     hh = 0.5 * h
-    k2x, k2z, k2e, k2t, k2a, k2b, k2c, k2d, _, _ = _rhs(z + hh * k1z, zeta + hh * k1e, dz + hh * k1b,
+    k2x, k2z, k2e, k2t, k2a, k2b, k2c, k2d, _, _, _ = _rhs(z + hh * k1z, zeta + hh * k1e, dz + hh * k1b,
                                                              dzeta + hh * k1c, xi, dxi, knots, coef, piece)
-    k3x, k3z, k3e, k3t, k3a, k3b, k3c, k3d, _, _ = _rhs(z + hh * k2z, zeta + hh * k2e, dz + hh * k2b,
+    k3x, k3z, k3e, k3t, k3a, k3b, k3c, k3d, _, _, _ = _rhs(z + hh * k2z, zeta + hh * k2e, dz + hh * k2b,
                                                              dzeta + hh * k2c, xi, dxi, knots, coef, piece)
-    k4x, k4z, k4e, k4t, k4a, k4b, k4c, k4d, _, _ = _rhs(z + h * k3z, zeta + h * k3e, dz + h * k3b,
+    k4x, k4z, k4e, k4t, k4a, k4b, k4c, k4d, _, _, _ = _rhs(z + h * k3z, zeta + h * k3e, dz + h * k3b,
                                                              dzeta + h * k3c, xi, dxi, knots, coef, piece)
-    w = h / 6.0
+    w = h * (1.0 / 6.0)
     x1 = x + w * (k1x + 2.0 * (k2x + k3x) + k4x)
     z1 = z + w * (k1z + 2.0 * (k2z + k3z) + k4z)
     e1 = zeta + w * (k1e + 2.0 * (k2e + k3e) + k4e)
@@ -164,7 +203,41 @@ def _rk4(x, z, zeta, t, dx, dz, dzeta, dt, xi, dxi, h, k1x, k1z, k1e, k1t, k1a, 
     b1 = dz + w * (k1b + 2.0 * (k2b + k3b) + k4b)
     c1 = dzeta + w * (k1c + 2.0 * (k2c + k3c) + k4c)
     d1 = dt + w * (k1d + 2.0 * (k2d + k3d) + k4d)
-    return x1, z1, e1, t1, a1, b1, c1, d1
+    return x1, z1, e1, t1, a1, b1, c1, d1, k4x, k4z, k4e, k4t
+
+
+@nb.njit(cache=True, fastmath=_FAST, error_model="numpy")
+def _error_ratio(h, k4x, k4z, k4e, k4t, f1x, f1z, f1e, f1t, c, ds, tol):
+    """Local error estimate of the step over the tolerance (accept when <= 1).
+
+    The classical RK4 weights with a fifth stage at the end point (the next step's first stage)
+    embed a third-order solution with weights (1/6, 1/3, 1/3, 0, 1/6) (checked against the order
+    conditions up to order 3, [Hairer1993] sect. II.4); the two differ by h/6 (k4 - k5), an upper
+    estimate of the RK4 error. Positions, the travel time (times c) and the ray angle (times the
+    maximum step, the lever arm of an angle error) are held to ``tol`` metres.
+    """
+    w = h * (1.0 / 6.0)
+    ex = abs(w * (k4x - f1x))
+    ez = abs(w * (k4z - f1z))
+    et = abs(w * (k4t - f1t)) * c
+    ea = abs(w * (k4e - f1e)) * c * ds
+    return max(max(ex, ez), max(et, ea)) * (1.0 / tol)
+
+
+@nb.njit(cache=True, inline="always", error_model="numpy")
+def _next_step(err, hstep, hctl, ds):
+    """Step proposal after an accepted step of length ``hstep`` with error ratio ``err``.
+
+    Doubling and halving with the thresholds of the (1 / err)^(1/4) rule of a third-order error
+    estimate ([Hairer1993] sect. II.4), without its root: a full step doubles when twice its length
+    would still pass with the safety factor, and a step (full or cut short by a knot or an event)
+    that came close to the tolerance halves the proposal.
+    """
+    if err > _HALVE_ABOVE:
+        return min(hctl, 0.5 * hstep)
+    if err < _DOUBLE_BELOW and hstep >= hctl * (1.0 - 1e-12):
+        return min(ds, 2.0 * hstep)
+    return hctl
 
 
 @nb.njit(cache=True, inline="always", error_model="numpy")
@@ -202,16 +275,259 @@ def _event_value(kind, x, z, zeta, bz0, bslope, bx0, x_event):
 
 
 @nb.njit(cache=True, inline="always", error_model="numpy")
-def _event_rate(kind, z, zeta, xi, bslope, knots, coef, hint):
-    """Derivative of the event value along the ray, d g / ds."""
-    c, cz, _, _ = evaluate(z, knots, coef, hint)
+def _event_rate(kind, fx, fz, fe, bslope):
+    """Derivative of the event value along the ray, d g / ds, from the ray's rates."""
     if kind == _EV_SURFACE:
-        return c * zeta
+        return fz
     if kind == _EV_BOTTOM:
-        return c * zeta - bslope * c * xi
+        return fz - bslope * fx
     if kind == _EV_RANGE:
-        return c * xi
-    return -cz / (c * c)
+        return fx
+    return fe
+
+
+@nb.njit(cache=True, inline="always", error_model="numpy")
+def _hermite(u, h, y0, y1, f0, f1):
+    """Cubic Hermite interpolant of one state component over a step (fraction u of length h) and
+    its derivative along the ray."""
+    u2 = u * u
+    u3 = u2 * u
+    val = (2.0 * u3 - 3.0 * u2 + 1.0) * y0 + (u3 - 2.0 * u2 + u) * h * f0 + (3.0 * u2 - 2.0 * u3) * y1 \
+        + (u3 - u2) * h * f1
+    der = (6.0 * u2 - 6.0 * u) * (y0 - y1) / h + (3.0 * u2 - 4.0 * u + 1.0) * f0 + (3.0 * u2 - 2.0 * u) * f1
+    return val, der
+
+
+@nb.njit(cache=True, error_model="numpy")
+def _hermite_root(kind, h, x0, z0, e0, x1, z1, e1, k1x, k1z, k1e, f1x, f1z, f1e, bz0, bsl, bx0, x_ev):
+    """Arc length in (0, h] where the event value crosses zero on the step's cubic Hermite interpolant
+    (safeguarded Newton; the value changes sign over the step)."""
+    g0 = _event_value(kind, x0, z0, e0, bz0, bsl, bx0, x_ev)
+    if g0 == 0.0:
+        return 0.0
+    lo = 0.0
+    hi = 1.0
+    u = 0.5
+    g1 = _event_value(kind, x1, z1, e1, bz0, bsl, bx0, x_ev)
+    if g1 != g0:
+        u = min(max(g0 / (g0 - g1), 0.0), 1.0)
+    for _ in range(_HERMITE_ITERATIONS):
+        xv, xd = _hermite(u, h, x0, x1, k1x, f1x)
+        zv, zd = _hermite(u, h, z0, z1, k1z, f1z)
+        ev, ed = _hermite(u, h, e0, e1, k1e, f1e)
+        g = _event_value(kind, xv, zv, ev, bz0, bsl, bx0, x_ev)
+        if g == 0.0:
+            break
+        if (g > 0.0) == (g0 > 0.0):
+            lo = u
+        else:
+            hi = u
+        r = _event_rate(kind, xd, zd, ed, bsl) * h
+        un = u - g / r if r != 0.0 else 0.5 * (lo + hi)
+        if not (lo < un < hi):
+            un = 0.5 * (lo + hi)
+        if abs(un - u) * h < _HERMITE_TOL_M or (hi - lo) * h < _HERMITE_TOL_M:
+            u = un
+            break
+        u = un
+    return u * h
+
+
+@nb.njit(cache=True, inline="always", error_model="numpy")
+def _first_event(hstep, x, z, zeta, x1, z1, e1, k1x, k1z, k1e, f1x, f1z, f1e, bz0, bsl, bx0, x_ev):
+    """The event a trial step of length ``hstep`` crosses first and the arc length to it (the step's
+    own length and _EV_NONE when it crosses none): surface, seabed, next range event, turning point."""
+    kind = _EV_NONE
+    h = hstep
+    if z1 < 0.0:
+        h = _hermite_root(_EV_SURFACE, hstep, x, z, zeta, x1, z1, e1, k1x, k1z, k1e, f1x, f1z, f1e, bz0, bsl,
+                          bx0, x_ev)
+        kind = _EV_SURFACE
+    if z1 > bz0 + bsl * (x1 - bx0):
+        hp = _hermite_root(_EV_BOTTOM, hstep, x, z, zeta, x1, z1, e1, k1x, k1z, k1e, f1x, f1z, f1e, bz0, bsl,
+                           bx0, x_ev)
+        if kind == _EV_NONE or hp < h:
+            h = hp
+            kind = _EV_BOTTOM
+    if x1 >= x_ev:
+        hp = _hermite_root(_EV_RANGE, hstep, x, z, zeta, x1, z1, e1, k1x, k1z, k1e, f1x, f1z, f1e, bz0, bsl,
+                           bx0, x_ev)
+        if kind == _EV_NONE or hp < h:
+            h = hp
+            kind = _EV_RANGE
+    if zeta * e1 < 0.0:
+        hp = _hermite_root(_EV_TURN, hstep, x, z, zeta, x1, z1, e1, k1x, k1z, k1e, f1x, f1z, f1e, bz0, bsl,
+                           bx0, x_ev)
+        if kind == _EV_NONE or hp < h:
+            h = hp
+            kind = _EV_TURN
+    return kind, h
+
+
+@nb.njit(cache=True, inline="always", error_model="numpy")
+def _land_on_event(kind, h, hstep, x, z, zeta, t, dx, dz, dzeta, dt, xi, dxi, k1x, k1z, k1e, k1t, k1a, k1b, k1c,
+                   k1d, knots, coef, piece, bz0, bsl, bx0, x_ev):
+    """The RK4 step of length ``h`` (the interpolated event crossing), corrected by safeguarded
+    Newton iterations on the step length inside [0, hstep] while it misses the event by more than
+    the landing tolerance. Returns the state at the event and the step length."""
+    x1, z1, e1, t1, a1, b1, c1, d1, _, _, _, _ = _rk4(x, z, zeta, t, dx, dz, dzeta, dt, xi, dxi, h, k1x, k1z, k1e,
+                                                      k1t, k1a, k1b, k1c, k1d, knots, coef, piece)
+    if kind == _EV_SURFACE:
+        inside = 1.0
+    elif kind == _EV_TURN:
+        inside = 1.0 if zeta > 0.0 else -1.0
+    else:
+        inside = -1.0
+    ltol = _LAND_TOL_M if kind != _EV_TURN else _LAND_TOL_M * 1e-6
+    lo = 0.0
+    hi = hstep
+    for _ in range(_NEWTON_ITERATIONS):
+        g = _event_value(kind, x1, z1, e1, bz0, bsl, bx0, x_ev)
+        if abs(g) < ltol:
+            break
+        if g * inside > 0.0:
+            lo = h
+        else:
+            hi = h
+        f2x, f2z, f2e, _, _, _, _, _, _, _, _ = _rhs(z1, e1, b1, c1, xi, dxi, knots, coef, piece)
+        r = _event_rate(kind, f2x, f2z, f2e, bsl)
+        hn = h - g / r if r != 0.0 else 0.5 * (lo + hi)
+        if not (lo < hn < hi):
+            hn = 0.5 * (lo + hi)
+        h = hn
+        x1, z1, e1, t1, a1, b1, c1, d1, _, _, _, _ = _rk4(x, z, zeta, t, dx, dz, dzeta, dt, xi, dxi, h, k1x, k1z,
+                                                          k1e, k1t, k1a, k1b, k1c, k1d, knots, coef, piece)
+    return x1, z1, e1, t1, a1, b1, c1, d1, h
+
+
+@nb.njit(cache=True, inline="always", error_model="numpy")
+def _reflect(kind, z, xi, zeta, dx, dz, dxi, dzeta, bsl, knots, coef, hint):
+    """Mirror the slowness about the boundary and carry the dynamic-ray vector across it (saltation).
+
+    Returns xi, zeta, dx, dz, dxi, dzeta, sin(grazing angle), piece.
+    """
+    c, cz, _, hint = evaluate(z, knots, coef, hint)
+    if kind == _EV_SURFACE:
+        nx = 0.0
+        nz = 1.0
+        gsl = 0.0
+    else:
+        nrm = 1.0 / math.sqrt(1.0 + bsl * bsl)
+        nx = -bsl * nrm
+        nz = nrm
+        gsl = bsl
+    vn = xi * nx + zeta * nz
+    sin_g = min(abs(vn) * c, 1.0)
+    xi_r = xi - 2.0 * vn * nx
+    zeta_r = zeta - 2.0 * vn * nz
+    # saltation: tau = -(grad g . dy)/(grad g . F-), grad g = (-slope, 1) in (x, z)
+    den = c * zeta - gsl * c * xi
+    tau = -(dz - gsl * dx) / den if den != 0.0 else 0.0
+    fe = -cz / (c * c)
+    # Dh F- for the slowness part: the reflection applied to (0, fe)
+    dn_f = fe * nz
+    rfx = -2.0 * dn_f * nx
+    rfz = fe - 2.0 * dn_f * nz
+    dvn = dxi * nx + dzeta * nz
+    dxi_r = dxi - 2.0 * dvn * nx
+    dzeta_r = dzeta - 2.0 * dvn * nz
+    dx = dx + c * (xi - xi_r) * tau
+    dz = dz + c * (zeta - zeta_r) * tau
+    dxi = dxi_r + rfx * tau
+    dzeta = dzeta_r + (rfz - fe) * tau
+    return xi_r, zeta_r, dx, dz, dxi, dzeta, sin_g, hint
+
+
+@nb.njit(cache=True, inline="always", error_model="numpy")
+def _seabed_coefficient(sin_g, bt_step, bt_re, bt_im):
+    """Seabed reflection coefficient (re, im) at grazing angle asin(sin_g), linear in the table."""
+    u = math.asin(sin_g) / bt_step
+    iu = int(u)
+    if iu > bt_re.shape[0] - 2:
+        iu = bt_re.shape[0] - 2
+    w = u - iu
+    return bt_re[iu] + w * (bt_re[iu + 1] - bt_re[iu]), bt_im[iu] + w * (bt_im[iu + 1] - bt_im[iu])
+
+
+@nb.njit(cache=True, inline="always", error_model="numpy")
+def _write_record(row, z, t, xi, zeta, c, dx, dz, dxi, dzeta, s, n_s, n_b, n_c, bre, bim, sin2, absdb,
+                  orient, dt):
+    """Fill one crossing record (columns ``R_*``; absorption at the extra frequencies after them)."""
+    row[R_Z] = z
+    row[R_T] = t
+    row[R_XI] = xi
+    row[R_ZETA] = zeta
+    row[R_C] = c
+    row[R_DX] = dx
+    row[R_DZ] = dz
+    row[R_DXI] = dxi
+    row[R_DZETA] = dzeta
+    row[R_S] = s
+    row[R_NS] = n_s
+    row[R_NB] = n_b
+    row[R_NC] = n_c
+    row[R_BRE] = bre
+    row[R_BIM] = bim
+    row[R_SIN2] = sin2
+    row[R_ABS] = absdb[0]
+    for m in range(1, absdb.shape[0]):
+        row[N_RECORD + m - 1] = absdb[m]  # abs_column(m)
+    row[R_ORIENT] = orient
+    row[R_DT] = dt
+
+
+@nb.njit(cache=True, inline="always", error_model="numpy")
+def _start_piece(z, zeta, knots, hint):
+    """Profile piece a step from depth ``z`` lies in (on a knot, the one the ray is heading into)."""
+    piece = locate(z, knots, hint)
+    if piece > 0 and z <= knots[piece] and zeta < 0.0:
+        piece -= 1  # on a knot, heading up: the piece above
+    return piece
+
+
+@nb.njit(cache=True, inline="always", error_model="numpy")
+def _knot_step(z, k1z, b2, knots, piece, z_knot_max, hmax):
+    """Step that ends on the next knot of piece ``piece`` (quadratic prediction of z(h)), or ``hmax``.
+
+    Returns (step, move): move is +-1 when the ray is within _KNOT_MIN_STEP_M of the knot it is
+    heading to, and so belongs to the next piece.
+    """
+    n_knots = knots.shape[0]
+    h_hi = -1.0
+    h_lo = -1.0
+    reach = abs(k1z) * hmax + abs(b2) * hmax * hmax  # bound on |z(h) - z| over the step
+    if knots[piece + 1] - z > reach and (piece == 0 or z - knots[piece] > reach):
+        return hmax, 0
+    # a knot the ray is a hair past (it came from there) is not ahead of it
+    if piece + 2 < n_knots and z < knots[piece + 1] < z_knot_max and (k1z > 0.0 or b2 > 0.0):
+        h_hi = _first_root(k1z, b2, z - knots[piece + 1], hmax)
+    if piece > 0 and 0.0 < knots[piece] < z and (k1z < 0.0 or b2 < 0.0):
+        h_lo = _first_root(k1z, b2, z - knots[piece], hmax)
+    if h_hi > 0.0 and (h_lo <= 0.0 or h_hi <= h_lo):
+        if h_hi > _KNOT_MIN_STEP_M:
+            return h_hi, 0
+        return hmax, 1
+    if h_lo > 0.0:
+        if h_lo > _KNOT_MIN_STEP_M:
+            return h_lo, 0
+        return hmax, -1
+    return hmax, 0
+
+
+@nb.njit(cache=True, inline="always", error_model="numpy")
+def _snell_projection(zeta, xi, inv_c):
+    """zeta put back on Snell's law, xi^2 + zeta^2 = 1 / c^2 (a projection method, [Hairer2006]
+    sect. IV.4), given 1 / c: the integrator's drift off it moves turning depths, and so the phase
+    of every later cycle. Left alone near a turning point, where the projection is ill-conditioned."""
+    w = inv_c * inv_c - xi * xi
+    if w <= 0.0:
+        return zeta
+    zn = math.sqrt(w)
+    if zeta < 0.0:
+        zn = -zn
+    if abs(zn - zeta) < _PROJECT_MAX_REL * abs(zeta):
+        return zn
+    return zeta
 
 
 @nb.njit(cache=True, error_model="numpy")
@@ -224,9 +540,12 @@ def trace_ray(theta0, zs, med, r_max, max_steps, rec_r, rec, px, pz, pt, pa):
         Profile pieces (``knots``, ``coef``, see :mod:`aculink.site._profile_kernels`); seabed
         vertices ``bed_r``, ``bed_z`` (m) and segment slopes ``bed_slope``; the seabed reflection
         coefficient ``bt_re``, ``bt_im`` tabulated on grazing angles 0, ``bt_step``, ...; absorption
-        ``ab_db`` (n_freq, bins) in dB/m on depth bins of width ``ab_dz``; the arc-length step ``ds``
-        (m); ``floor_mag``: the ray stops when the product of seabed |R| falls below it.
-    r_max : stop range, m. max_steps : step budget.
+        ``ab_db`` (n_freq, bins) in dB/m on depth bins of width ``ab_dz``; the largest arc-length
+        step ``ds`` (m) and the local error tolerance ``tol`` (m); ``floor_mag``: the ray stops when
+        the product of seabed |R| falls below it.
+    r_max : stop range, m. max_steps : step budget (rejected trial steps count; steps cut short to
+        end on a profile knot do not, since each of them makes progress and their number is bounded by
+        the path length over the knot spacing).
     rec_r : increasing receiver ranges; ``rec[j, :]`` receives the crossing record at rec_r[j]
         (left as NaN where the ray does not get there); record columns ``R_*`` and :func:`abs_column`.
     px, pz, pt, pa : path buffers (range, depth, time, angle in rad); length 0 records no path.
@@ -240,13 +559,10 @@ def trace_ray(theta0, zs, med, r_max, max_steps, rec_r, rec, px, pz, pt, pa):
     bed_r = med.bed_r
     bed_z = med.bed_z
     bed_slope = med.bed_slope
-    bt_step = med.bt_step
-    bt_re = med.bt_re
-    bt_im = med.bt_im
     ab_dz = med.ab_dz
     ab_db = med.ab_db
     ds = med.ds
-    floor_mag = med.floor_mag
+    tol = med.tol
     c0, _, _, hint = evaluate(zs, knots, coef, 0)
     cos0 = math.cos(theta0)
     sin0 = math.sin(theta0)
@@ -279,8 +595,7 @@ def trace_ray(theta0, zs, med, r_max, max_steps, rec_r, rec, px, pz, pt, pa):
         jrec += 1
     cap = px.shape[0]
     n_ab = ab_db.shape[1]
-    n_bt = bt_re.shape[0]
-    n_knots = knots.shape[0]
+    inv_ab_dz = 1.0 / ab_dz
     z_knot_max = 0.0
     for m in range(bed_z.shape[0]):
         z_knot_max = max(z_knot_max, bed_z[m])
@@ -293,7 +608,12 @@ def trace_ray(theta0, zs, med, r_max, max_steps, rec_r, rec, px, pz, pt, pa):
         npts = 1
     term = END_STEPS
     step = 0
-    while step < max_steps:
+    hctl = ds  # the step controller's proposal
+    # first stage carried over from the previous step's end point (valid for piece k1_piece)
+    k1_piece = -1
+    cs = czs = czzs = invs = 0.0
+    n_free = 0  # steps not counted in the budget (those cut short to end on a knot)
+    while step - n_free < max_steps:
         step += 1
         bx0 = bed_r[seg]
         bz0 = bed_z[seg]
@@ -305,107 +625,54 @@ def trace_ray(theta0, zs, med, r_max, max_steps, rec_r, rec, px, pz, pt, pa):
         if seg + 1 < n_seg and bed_r[seg + 1] < x_ev:
             x_ev = bed_r[seg + 1]
         # The step stays inside one smooth cubic piece of the profile: it is shortened to end on the
-        # next knot (d2c/dz2 jumps there, which would cost RK4 its order), found from the quadratic
-        # prediction of z(h); a ray within _KNOT_MIN_STEP_M of the knot it is heading to moves on to
-        # the next piece.
-        piece = locate(z, knots, hint)
-        if piece > 0 and z <= knots[piece] and zeta < 0.0:
-            piece -= 1  # on a knot, heading up: the piece above
-        for it in range(3):
-            k1x, k1z, k1e, k1t, k1a, k1b, k1c, k1d, cs, czs = _rhs(z, zeta, dz, dzeta, xi, dxi, knots, coef,
-                                                                   piece)
-            b2 = 0.5 * k1e * cs * cs * cs * xi * xi  # (d2z/ds2) / 2 = -c_z c xi^2 / 2
-            h_hi = -1.0
-            h_lo = -1.0
-            # a knot the ray is a hair past (it came from there) is not ahead of it
-            if piece + 2 < n_knots and z < knots[piece + 1] < z_knot_max and (k1z > 0.0 or b2 > 0.0):
-                h_hi = _first_root(k1z, b2, z - knots[piece + 1], ds)
-            if piece > 0 and 0.0 < knots[piece] < z and (k1z < 0.0 or b2 < 0.0):
-                h_lo = _first_root(k1z, b2, z - knots[piece], ds)
-            move = 0
-            hstep = ds
-            if h_hi > 0.0 and (h_lo <= 0.0 or h_hi <= h_lo):
-                if h_hi > _KNOT_MIN_STEP_M:
-                    hstep = h_hi
-                else:
-                    move = 1
-            elif h_lo > 0.0:
-                if h_lo > _KNOT_MIN_STEP_M:
-                    hstep = h_lo
-                else:
-                    move = -1
-            if move == 0 or it == 2:
-                break
+        # next knot (d2c/dz2 jumps there, which would cost RK4 its order).
+        piece = _start_piece(z, zeta, knots, hint)
+        # the first stage: c, c_z, c_zz carried over from the previous step's end point when the state
+        # did not jump there and the piece is the same (fewer values live across steps than the whole
+        # stage); a new piece is evaluated afresh (c_zz, and c_z of a C0 profile, jump at knots)
+        if piece != k1_piece:
+            cs, czs, czzs = _eval_piece(z, knots, coef, piece)
+            invs = 1.0 / cs
+        k1x, k1z, k1e, k1t, k1a, k1b, k1c, k1d = _rates(cs, czs, czzs, invs, zeta, dz, dzeta, xi, dxi)
+        b2 = 0.5 * k1e * cs * cs * cs * xi * xi  # (d2z/ds2) / 2 = -c_z c xi^2 / 2
+        hstep, move = _knot_step(z, k1z, b2, knots, piece, z_knot_max, hctl)
+        if move != 0:
+            # on the knot it was heading to: the step lies in the next piece, up to its far knot
             piece += move
+            cs, czs, czzs = _eval_piece(z, knots, coef, piece)
+            invs = 1.0 / cs
+            k1x, k1z, k1e, k1t, k1a, k1b, k1c, k1d = _rates(cs, czs, czzs, invs, zeta, dz, dzeta, xi, dxi)
+            b2 = 0.5 * k1e * cs * cs * cs * xi * xi
+            hstep, _ = _knot_step(z, k1z, b2, knots, piece, z_knot_max, hctl)
+        k1_piece = piece
+        if hstep < hctl:
+            n_free += 1  # a step that ends on a knot always makes progress: the budget counts the others
         hint = piece
-        x1, z1, e1, t1, a1, b1, c1, d1 = _rk4(x, z, zeta, t, dx, dz, dzeta, dt, xi, dxi, hstep, k1x, k1z, k1e,
-                                                  k1t, k1a, k1b, k1c, k1d, knots, coef, piece)
-        kind = _EV_NONE
-        h = hstep
-        # pick the event with the shortest tangent-predicted distance
-        best = hstep * 2.0
-        if z1 < 0.0:
-            hp = -z / k1z if k1z < 0.0 else hstep
-            hp = min(max(hp, 0.0), hstep)
-            if hp < best:
-                best = hp
-                kind = _EV_SURFACE
-        if z1 > bz0 + bsl * (x1 - bx0):
-            g0 = z - (bz0 + bsl * (x - bx0))
-            r = k1z - bsl * k1x
-            hp = -g0 / r if r > 0.0 else hstep
-            hp = min(max(hp, 0.0), hstep)
-            if hp < best:
-                best = hp
-                kind = _EV_BOTTOM
-        if x1 >= x_ev:
-            hp = (x_ev - x) / k1x if k1x > 0.0 else hstep
-            hp = min(max(hp, 0.0), hstep)
-            if hp < best:
-                best = hp
-                kind = _EV_RANGE
-        if zeta * e1 < 0.0:
-            hp = -zeta / k1e if k1e != 0.0 else hstep
-            hp = min(max(hp, 0.0), hstep)
-            if hp < best:
-                best = hp
-                kind = _EV_TURN
+        x1, z1, e1, t1, a1, b1, c1, d1, k4x, k4z, k4e, k4t = _rk4(x, z, zeta, t, dx, dz, dzeta, dt, xi, dxi,
+                                                                  hstep, k1x, k1z, k1e, k1t, k1a, k1b, k1c,
+                                                                  k1d, knots, coef, piece)
+        f1x, f1z, f1e, f1t, _, _, _, _, c1s, cz1s, czz1s = _rhs(z1, e1, b1, c1, xi, dxi, knots, coef, piece)
+        err = _error_ratio(hstep, k4x, k4z, k4e, k4t, f1x, f1z, f1e, f1t, cs, ds, tol)
+        if err > 1.0 and hstep > _H_MIN_M:
+            # rejected: retry from the same point with a shorter step (k1 stays valid)
+            hctl = max(_H_MIN_M, hstep * max(_SHRINK_MIN, _SAFETY / math.sqrt(math.sqrt(err))))
+            continue
+        hctl = _next_step(err, hstep, hctl, ds)
+        # events: the one crossed first along the step, located on the step's Hermite interpolant
+        kind, h = _first_event(hstep, x, z, zeta, x1, z1, e1, k1x, k1z, k1e, f1x, f1z, f1e, bz0, bsl, bx0, x_ev)
         if kind != _EV_NONE:
-            # land on the event: safeguarded Newton on the step length inside [0, hstep]
-            if kind == _EV_SURFACE:
-                inside = 1.0
-            elif kind == _EV_TURN:
-                inside = 1.0 if zeta > 0.0 else -1.0
-            else:
-                inside = -1.0
-            lo = 0.0
-            hi = hstep
-            h = best if best > 0.0 else 0.5 * hstep
-            tol = _LAND_TOL_M if kind != _EV_TURN else _LAND_TOL_M * 1e-6
-            landed = False
-            for _ in range(_NEWTON_ITERATIONS):
-                x1, z1, e1, t1, a1, b1, c1, d1 = _rk4(x, z, zeta, t, dx, dz, dzeta, dt, xi, dxi, h, k1x, k1z,
-                                                          k1e, k1t, k1a, k1b, k1c, k1d, knots, coef, piece)
-                g = _event_value(kind, x1, z1, e1, bz0, bsl, bx0, x_ev)
-                if abs(g) < tol:
-                    landed = True
-                    break
-                if g * inside > 0.0:
-                    lo = h
-                else:
-                    hi = h
-                r = _event_rate(kind, z1, e1, xi, bsl, knots, coef, piece)
-                hn = h - g / r if r != 0.0 else 0.5 * (lo + hi)
-                if not (lo < hn < hi):
-                    hn = 0.5 * (lo + hi)
-                h = hn
-            if not landed:
-                x1, z1, e1, t1, a1, b1, c1, d1 = _rk4(x, z, zeta, t, dx, dz, dzeta, dt, xi, dxi, h, k1x, k1z,
-                                                          k1e, k1t, k1a, k1b, k1c, k1d, knots, coef, piece)
+            # land on the event: one RK4 step of the interpolated length, then safeguarded RK4-Newton
+            # corrections on the step length if the interpolant missed by more than the tolerance
+            x1, z1, e1, t1, a1, b1, c1, d1, h = _land_on_event(kind, h, hstep, x, z, zeta, t, dx, dz, dzeta, dt, xi,
+                                                               dxi, k1x, k1z, k1e, k1t, k1a, k1b, k1c, k1d, knots,
+                                                               coef, piece, bz0, bsl, bx0, x_ev)
+            k1_piece = -1  # the state changes at the event: the next first stage is computed afresh
+        else:
+            # the end point's rates are the next step's first stage
+            cs, czs, czzs, invs = c1s, cz1s, czz1s, f1t
         # absorption and path length per depth bin, at the step midpoint depth
-        zm = 0.5 * (z + z1)
         if n_ab > 0:
-            ib = int(zm / ab_dz)
+            ib = int(0.5 * (z + z1) * inv_ab_dz)
             if ib < 0:
                 ib = 0
             if ib >= n_ab:
@@ -429,57 +696,26 @@ def trace_ray(theta0, zs, med, r_max, max_steps, rec_r, rec, px, pz, pt, pa):
             x = x_ev
         elif kind == _EV_TURN:
             zeta = 0.0
+        if kind == _EV_NONE:
+            zeta = _snell_projection(zeta, xi, f1t)  # f1t = dt/ds = 1/c at the end point
+        elif kind != _EV_TURN:
+            c, _, _ = _eval_piece(z, knots, coef, piece)
+            zeta = _snell_projection(zeta, xi, 1.0 / c)
         # caustic: q changes sign (orientation flips at reflections are bookkeeping)
         qn = orient * (xi * dz - zeta * dx)
         if qn * qsign < 0.0:
             n_c += 1
             qsign = -qsign
         if kind == _EV_SURFACE or kind == _EV_BOTTOM:
-            c, cz, _, hint = evaluate(z, knots, coef, hint)
-            if kind == _EV_SURFACE:
-                nx = 0.0
-                nz = 1.0
-            else:
-                nrm = 1.0 / math.sqrt(1.0 + bsl * bsl)
-                nx = -bsl * nrm
-                nz = nrm
-            vn = xi * nx + zeta * nz
-            sin_g = abs(vn) * c
-            if sin_g > 1.0:
-                sin_g = 1.0
-            xi_r = xi - 2.0 * vn * nx
-            zeta_r = zeta - 2.0 * vn * nz
-            # saltation: tau = -(grad g . dy)/(grad g . F-), grad g = (-slope, 1) in (x, z)
-            gsl = 0.0 if kind == _EV_SURFACE else bsl
-            den = c * zeta - gsl * c * xi
-            tau = -(dz - gsl * dx) / den if den != 0.0 else 0.0
-            fe = -cz / (c * c)
-            # Dh F- for the slowness part: the reflection applied to (0, fe)
-            dn_f = fe * nz
-            rfx = -2.0 * dn_f * nx
-            rfz = fe - 2.0 * dn_f * nz
-            dvn = dxi * nx + dzeta * nz
-            dxi_r = dxi - 2.0 * dvn * nx
-            dzeta_r = dzeta - 2.0 * dvn * nz
-            dx = dx + c * (xi - xi_r) * tau
-            dz = dz + c * (zeta - zeta_r) * tau
-            dxi = dxi_r + rfx * tau
-            dzeta = dzeta_r + (rfz - fe) * tau
-            xi = xi_r
-            zeta = zeta_r
+            xi, zeta, dx, dz, dxi, dzeta, sin_g, hint = _reflect(kind, z, xi, zeta, dx, dz, dxi, dzeta, bsl,
+                                                                 knots, coef, hint)
             orient = -orient
             if kind == _EV_SURFACE:
                 n_s += 1
                 sin2 += sin_g * sin_g
             else:
                 n_b += 1
-                u = math.asin(sin_g) / bt_step
-                iu = int(u)
-                if iu > n_bt - 2:
-                    iu = n_bt - 2
-                w = u - iu
-                rr = bt_re[iu] + w * (bt_re[iu + 1] - bt_re[iu])
-                ri = bt_im[iu] + w * (bt_im[iu + 1] - bt_im[iu])
+                rr, ri = _seabed_coefficient(sin_g, med.bt_step, med.bt_re, med.bt_im)
                 tr = bre * rr - bim * ri
                 bim = bre * ri + bim * rr
                 bre = tr
@@ -492,28 +728,8 @@ def trace_ray(theta0, zs, med, r_max, max_steps, rec_r, rec, px, pz, pt, pa):
         if kind == _EV_RANGE:
             if jrec < n_rec and x >= rec_r[jrec]:
                 c, _, _, hint = evaluate(z, knots, coef, hint)
-                row = rec[jrec]
-                row[R_Z] = z
-                row[R_T] = t
-                row[R_XI] = xi
-                row[R_ZETA] = zeta
-                row[R_C] = c
-                row[R_DX] = dx
-                row[R_DZ] = dz
-                row[R_DXI] = dxi
-                row[R_DZETA] = dzeta
-                row[R_S] = s
-                row[R_NS] = n_s
-                row[R_NB] = n_b
-                row[R_NC] = n_c
-                row[R_BRE] = bre
-                row[R_BIM] = bim
-                row[R_SIN2] = sin2
-                row[R_ABS] = absdb[0]
-                for m in range(1, n_f):
-                    row[N_RECORD + m - 1] = absdb[m]
-                row[R_ORIENT] = orient
-                row[R_DT] = dt
+                _write_record(rec[jrec], z, t, xi, zeta, c, dx, dz, dxi, dzeta, s, n_s, n_b, n_c, bre, bim, sin2,
+                              absdb, orient, dt)
                 jrec += 1
             if seg + 1 < n_seg and x >= bed_r[seg + 1]:
                 seg += 1
@@ -524,7 +740,7 @@ def trace_ray(theta0, zs, med, r_max, max_steps, rec_r, rec, px, pz, pt, pa):
             if xi <= 0.0:
                 term = END_BACKWARD
                 break
-            if bre * bre + bim * bim < floor_mag * floor_mag:
+            if bre * bre + bim * bim < med.floor_mag * med.floor_mag:
                 term = END_WEAK
                 break
     return npts, step, term, x, n_s, n_b, n_c

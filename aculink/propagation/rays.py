@@ -4,9 +4,11 @@ This module turns a site into the plain arrays the numba kernels read (:class:`M
 of rays through :mod:`aculink.propagation._kernels` and labels the result. The physics and the
 integration scheme are described in the kernel module; the choices made here are:
 
-* **Step.** A fixed arc-length step of :data:`STEP_M` (5 m) with RK4, shortened only to land
-  exactly on boundaries, turning points, seabed vertices and receiver ranges. In very shallow water
-  the step is kept to a quarter of the shallowest seabed depth.
+* **Step.** RK4 with an error-controlled arc-length step of at most :data:`STEP_M` (5 m) and a
+  local tolerance of :data:`STEP_TOL_M`, shortened to land exactly on profile knots, boundaries,
+  turning points, seabed vertices and receiver ranges, with the ray angle projected back on Snell's
+  law after each step. In very shallow water the largest step is kept to a quarter of the
+  shallowest seabed depth.
 * **Seabed reflection.** The complex Rayleigh coefficient
   (:func:`aculink.site.seabed.rayleigh_reflection`) is tabulated on :data:`BOTTOM_TABLE_SIZE`
   grazing angles with the critical angle on a node (so the kink there is not smeared) and linearly
@@ -38,8 +40,11 @@ import numpy as np
 from aculink.errors import AculinkError, check_range
 from aculink.propagation import _kernels as _k
 
-#: Arc-length step of the RK4 integrator, m.
+#: Largest arc-length step of the RK4 integrator, m (the step controller may take shorter ones).
 STEP_M = 5.0
+#: Local error tolerance of one step (positions, c times the travel time, the maximum step times the
+#: ray angle), m: the step controller shortens steps below :data:`STEP_M` to meet it.
+STEP_TOL_M = 1e-4
 #: Grazing-angle nodes of the tabulated seabed reflection coefficient.
 BOTTOM_TABLE_SIZE = 4097
 #: Depth bins of the tabulated absorption.
@@ -70,6 +75,7 @@ class Medium:
     ab_db: np.ndarray
     step_m: float
     floor_mag: float
+    step_tol_m: float
     max_range_m: float
     surface_speed_mps: float
 
@@ -81,7 +87,8 @@ class Medium:
     def kernel(self):
         """The :class:`aculink.propagation._kernels.KernelMedium` the kernels read."""
         return _k.KernelMedium(self.knots, self.coef, self.bed_r, self.bed_z, self.bed_slope, self.bt_step,
-                               self.bt_re, self.bt_im, self.ab_dz, self.ab_db, self.step_m, self.floor_mag)
+                               self.bt_re, self.bt_im, self.ab_dz, self.ab_db, self.step_m, self.step_tol_m,
+                               self.floor_mag)
 
     def kernel_args(self):
         """Arguments of :func:`aculink.propagation._kernels.trace_ray` after ``theta0, zs``."""
@@ -162,7 +169,7 @@ def prepare_medium(site, freq_hz=None, *, bottom_reflection=None, step_m=None) -
         bed_slope=np.ascontiguousarray(slope),
         bt_step=float(step), bt_re=np.ascontiguousarray(table.real), bt_im=np.ascontiguousarray(table.imag),
         ab_dz=float(edges[1] - edges[0]), ab_db=np.ascontiguousarray(ab),
-        step_m=float(step_m), floor_mag=10.0 ** (-BOUNDARY_FLOOR_DB / 20.0),
+        step_m=float(step_m), floor_mag=10.0 ** (-BOUNDARY_FLOOR_DB / 20.0), step_tol_m=STEP_TOL_M,
         max_range_m=float(bed.max_range_m), surface_speed_mps=float(prof.speed(0.0)),
     )
 
@@ -238,7 +245,7 @@ def trace_rays(site, source_depth_m=None, angles_deg=None, max_range_m=None, *, 
     bottom_reflection : callable, optional
         ``f(grazing_rad) -> complex`` seabed reflection coefficient (default Rayleigh from the site).
     step_m : float, optional
-        Arc-length step, m (default :data:`STEP_M`).
+        Largest arc-length step, m (default :data:`STEP_M`).
 
     Returns
     -------
