@@ -89,13 +89,73 @@ def local_workers_for(n_points: int, n_tasks: int, cores: int | None = None) -> 
     return n if saving >= START_MARGIN * LOCAL_START_S else 1
 
 
+class RunStats:
+    """What a run cost, for sizing a cluster (filled by every runner as tasks finish).
+
+    ``task_s``: seconds each task computed, measured where it ran; ``where``: ``"here"`` (this
+    process) or the Dask worker's address; ``cluster_wall_s``: seconds from the cluster taking
+    its first task to its last result (0 for a serial run); ``cluster_workers``.
+    """
+
+    def __init__(self):
+        self.task_s = []
+        self.where = []
+        self.cluster_wall_s = 0.0
+        self.cluster_workers = 0
+
+    def add(self, seconds, where):
+        self.task_s.append(float(seconds))
+        self.where.append(where)
+
+    @property
+    def cluster_task_s(self) -> list:
+        return [t for t, w in zip(self.task_s, self.where) if w != "here"]
+
+    def overhead_per_task_s(self) -> float:
+        """Per task on the cluster: worker-seconds not spent computing (scheduling, transfer,
+        idle workers at the end), ``(workers x wall - sum of task times) / tasks``; NaN without
+        cluster tasks."""
+        done = self.cluster_task_s
+        if not done or self.cluster_workers < 1:
+            return float("nan")
+        return max(0.0, self.cluster_workers * self.cluster_wall_s - sum(done)) / len(done)
+
+
+def _timed_call(func, shared, item):
+    """``func(shared, item)`` with the seconds it took and the worker that ran it."""
+    import time
+
+    t0 = time.perf_counter()
+    result = func(shared, item)
+    seconds = time.perf_counter() - t0
+    try:
+        from distributed import get_worker
+
+        where = get_worker().address
+    except (ImportError, ValueError):
+        where = "here"
+    return result, seconds, where
+
+
+def _run_here(func, shared, item, stats):
+    import time
+
+    t0 = time.perf_counter()
+    result = func(shared, item)
+    stats.add(time.perf_counter() - t0, "here")
+    return result
+
+
 class _Serial:
     kind = "serial"
     n_workers = 1
 
+    def __init__(self):
+        self.stats = RunStats()
+
     def run(self, func, shared, items, on_result, *, name="task"):
         for item in items:
-            on_result(item, func(shared, item))
+            on_result(item, _run_here(func, shared, item, self.stats))
 
 
 class _External:
@@ -107,6 +167,7 @@ class _External:
         self.client = client
         self.n_workers = max(1, len(client.scheduler_info().get("workers", {})))
         self.warm_up = warm_up
+        self.stats = RunStats()
 
     def run(self, func, shared, items, on_result, *, name="task"):
         items = list(items)
@@ -114,7 +175,8 @@ class _External:
             return
         if self.warm_up is not None:
             register_warm_up(self.client, self.warm_up)
-        _run_on_client(self.client, func, shared, deque(items), on_result, name, threading.Event())
+        _run_on_client(self.client, func, shared, deque(items), on_result, name, threading.Event(),
+                       stats=self.stats)
 
 
 class _Local:
@@ -126,6 +188,7 @@ class _Local:
         self.n_workers = int(n_workers)
         self.warm_up = warm_up
         self.start_error = None
+        self.stats = RunStats()
 
     def run(self, func, shared, items, on_result, *, name="task"):
         queue = deque(items)
@@ -146,7 +209,8 @@ class _Local:
                     if stop.is_set():
                         return
                     ready.set()
-                    _run_on_client(client, func, shared, queue, deliver, name, stop, lock=lock)
+                    _run_on_client(client, func, shared, queue, deliver, name, stop, lock=lock,
+                                   stats=self.stats)
             except BaseException as exc:  # noqa: BLE001 - handed to the calling thread
                 failure.append(exc)
             finally:
@@ -160,7 +224,7 @@ class _Local:
                     item = queue.popleft() if queue else None
                 if item is None:
                     break
-                deliver(item, func(shared, item))
+                deliver(item, _run_here(func, shared, item, self.stats))
             if not queue and not ready.is_set():
                 stop.set()  # all done here before the cluster came up: do not wait for it to work
             thread.join()
@@ -175,7 +239,7 @@ class _Local:
                 # the cluster never ran a task: finish what is left here
                 while queue:
                     item = queue.popleft()
-                    deliver(item, func(shared, item))
+                    deliver(item, _run_here(func, shared, item, self.stats))
             else:
                 raise exc
 
@@ -237,14 +301,16 @@ def register_warm_up(client, warm_up) -> None:
     client.register_plugin(WarmUp(), name="aculink-warm-up")
 
 
-def _run_on_client(client, func, shared, queue, on_result, name, stop, *, lock=None):
+def _run_on_client(client, func, shared, queue, on_result, name, stop, *, lock=None, stats=None):
     """Submit every queued item to ``client`` (shared data scattered once) and collect them."""
     with client.as_current():
         _submit_and_collect(client, func, shared, queue, on_result, name, stop,
-                            lock or contextlib.nullcontext())
+                            lock or contextlib.nullcontext(), RunStats() if stats is None else stats)
 
 
-def _submit_and_collect(client, func, shared, queue, on_result, name, stop, lock):
+def _submit_and_collect(client, func, shared, queue, on_result, name, stop, lock, stats):
+    import time
+
     from distributed import as_completed
     from distributed.client import FutureCancelledError
     from distributed.scheduler import KilledWorker
@@ -254,8 +320,10 @@ def _submit_and_collect(client, func, shared, queue, on_result, name, stop, lock
     with lock:
         items = list(queue)
         queue.clear()
+    t0 = time.perf_counter()
+    stats.cluster_workers = max(1, len(client.scheduler_info().get("workers", {})))
     for k, item in enumerate(items):
-        fut = client.submit(func, shared_future, item, pure=False,
+        fut = client.submit(_timed_call, func, shared_future, item, pure=False,
                             key=f"aculink-{name}-{k}-{os.getpid()}-{id(items)}")
         futures[fut.key] = (fut, item)
     try:
@@ -272,6 +340,9 @@ def _submit_and_collect(client, func, shared, queue, on_result, name, stop, lock
                 raise AculinkError(f"{name} {item!r} was cancelled by the Dask cluster; "
                                    "finished work is saved, rerun to resume") from None
             fut.release()
+            result, seconds, where = result
+            stats.add(seconds, where)
+            stats.cluster_wall_s = time.perf_counter() - t0
             on_result(item, result)
     finally:
         for fut, _ in futures.values():
@@ -327,9 +398,11 @@ def run_tasks(func, shared, items, on_result, *, workers=None, scheduler=None,
     ``on_result(item, result)`` is called in this process as each task finishes. ``func``
     must be a module-level function (it is shipped to worker processes); ``shared`` is sent
     to each worker once. ``n_points`` (default: one per item) sizes the default choice of
-    workers; see :func:`open_runner` for the other arguments.
+    workers; see :func:`open_runner` for the other arguments. Returns the run's
+    :class:`RunStats`.
     """
     items = list(items)
     with open_runner(workers=workers, scheduler=scheduler, timeout_s=timeout_s, warm_up=warm_up,
                      n_points=len(items) if n_points is None else n_points, n_tasks=len(items)) as runner:
         runner.run(func, shared, items, on_result, name=name)
+    return runner.stats

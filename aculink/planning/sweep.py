@@ -173,7 +173,8 @@ def sweep_settings(job: SweepJob, chunk_ranges: int) -> dict:
 def run_sweep(site, ranges_m, depths_m, out, *, source_depths_m=None, winds_mps=None,
               receivers="all", modulations=None, symbol_rates_baud=None, target_ber=None,
               margin_db=None, workers=None, scheduler=None, resume=False, overwrite=False,
-              quiet=False, chunk_ranges=None, evaluate=None, keep_parts=False, stream=None):
+              quiet=False, chunk_ranges=None, evaluate=None, keep_parts=False, stream=None,
+              stats_out=None):
     """Sweep the workable rate over a grid, checkpointing every chunk; write NetCDF.
 
     Parameters
@@ -213,6 +214,9 @@ def run_sweep(site, ranges_m, depths_m, out, *, source_depths_m=None, winds_mps=
         The evaluator (default :func:`aculink.planning.search.evaluate_block`).
     keep_parts : bool
         Keep the checkpoint folder after the dataset is written.
+    stats_out : list, optional
+        Receives the run's :class:`aculink.planning.dask_runner.RunStats` (task times, where
+        they ran, the cluster's overhead per task): the figures to size a cluster with.
 
     Returns
     -------
@@ -257,6 +261,8 @@ def run_sweep(site, ranges_m, depths_m, out, *, source_depths_m=None, winds_mps=
             runner.run(compute_chunk, job, todo, save, name="chunk")
         finally:
             bar.close()
+        if stats_out is not None:
+            stats_out.append(runner.stats)
         if getattr(runner, "start_error", None) and not quiet:
             print(f"aculink: note: ran serially: {runner.start_error}", file=stream or sys.stderr)
     ds = merge_chunks(job, chunks, ckpt, settings, source_swept=source_depths_m is not None)

@@ -5,7 +5,8 @@
 Each ``bench_*.py`` measures the project against a plain numpy/scipy baseline in one run and
 prints its figures; this runner runs them one after another in fresh processes (so numba
 compilation and caches behave as for a user), shows their output, and ends with a table: the
-script, its wall time, and every line that reports a figure against a target or a ratio.
+script, its wall time, and every line that reports a figure against a target or a ratio, with
+its verdict (met / MISSED, "-" for a ratio without a target), then the count of each.
 These hosts are noisy: compare ratios measured in one run, not absolute figures across runs.
 """
 
@@ -49,14 +50,29 @@ def main(argv=None) -> int:
         key_lines = [line.strip() for line in proc.stdout.splitlines() if _KEY.search(line)]
         summary.append((path.stem.removeprefix("bench_"), wall, proc.returncode, key_lines))
     print("\n=== summary ===")
-    print(f"{'benchmark':<10} {'wall s':>7} {'status':>7}  figure against target or baseline")
+    print(f"{'benchmark':<10} {'wall s':>7} {'status':>7}  {'verdict':<7}  figure against target or baseline")
+    counts = {"met": 0, "MISSED": 0}
     for name, wall, code, lines in summary:
         status = "ok" if code == 0 else f"exit {code}"
-        first = lines[0] if lines else "(no target lines)"
-        print(f"{name:<10} {wall:7.1f} {status:>7}  {first}")
-        for line in lines[1:]:
-            print(f"{'':<10} {'':>7} {'':>7}  {line}")
+        if not lines:
+            lines = ["(no target lines)"]
+        for k, line in enumerate(lines):
+            v = verdict(line)
+            if v in counts:
+                counts[v] += 1
+            head = f"{name:<10} {wall:7.1f} {status:>7}" if k == 0 else f"{'':<10} {'':>7} {'':>7}"
+            print(f"{head}  {v:<7}  {line}")
+    print(f"targets: {counts['met']} met, {counts['MISSED']} MISSED (a line with both verdicts counts as MISSED)")
     return 0 if all(code == 0 for _, _, code, _ in summary) else 1
+
+
+def verdict(line: str) -> str:
+    """The verdict a benchmark line gives its target: MISSED, met, or '-' (a ratio or figure only)."""
+    if "MISSED" in line:
+        return "MISSED"
+    if re.search(r"\bmet\b", line):
+        return "met"
+    return "-"
 
 
 if __name__ == "__main__":
