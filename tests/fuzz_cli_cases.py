@@ -42,6 +42,7 @@ def _files(work: Path) -> dict:
         "csv_as_site": str(ENV / "shelf_summer_ctd.csv"), "taps": str(work / "taps.csv"),
         "bad_taps": str(work / "bad_taps.csv"), "folder": str(work / "folder"),
         "exists_dir": str(work / "full"),
+        "sweep_nc": str(work / "sweep.nc"), "plan_json": str(work / "plan.json"), "bad_json": str(work / "bad.json"),
     }
 
 
@@ -56,7 +57,33 @@ def prepare(work: Path) -> dict:
     Path(f["folder"]).mkdir(exist_ok=True)
     Path(f["exists_dir"]).mkdir(exist_ok=True)
     (Path(f["exists_dir"]) / "keep.txt").write_text("keep")
+    _results(f)
     return f
+
+
+def _results(f) -> None:
+    """A small sweep file and plan JSON for ``redraw`` (synthetic numbers on the bundled shelf)."""
+    import json
+
+    import numpy as np
+    import xarray as xr
+
+    from aculink.io.netcdf import write_netcdf
+
+    site_file = ENV / "shelf_summer.toml"
+    r, z = np.array([1000.0, 2000.0]), np.array([10.0, 40.0])
+    ds = xr.Dataset({"net_bit_rate_bps": (("range", "depth"), np.array([[4000.0, 0.0], [2000.0, 1000.0]]))},
+                    coords={"range": r, "depth": z},
+                    attrs={"target_ber": 1e-4, "margin_db": 3.0, "source_depth_m": 20.0,
+                           "site_text": site_file.read_text(), "site_path": str(site_file), "site_name": "shelf"})
+    write_netcdf(ds, f["sweep_nc"], overwrite=True)
+    rows = [{"range_m": 1000.0, "net_bit_rate_bps": 4000.0, "net_bit_rate_by_receiver_bps": {"none": 0.0, "dfe": 4000.0}},
+            {"range_m": 2000.0, "net_bit_rate_bps": 0.0, "net_bit_rate_by_receiver_bps": {"none": 0.0, "dfe": None}}]
+    Path(f["plan_json"]).write_text(json.dumps({
+        "kind": "aculink plan", "site": "shelf", "receivers": ["none", "dfe"], "rows": rows, "receiver_depth_m": 50.0,
+        "source_depth_m": 20.0, "target_ber": 1e-4, "margin_db": 3.0, "envelope_km_kbps": 40.0,
+        "envelope_water": "shallow water"}))
+    Path(f["bad_json"]).write_text('{"kind": "aculink plan", "rows": []}')
 
 
 def snapshot(work: Path) -> dict:
@@ -115,7 +142,7 @@ def _options(f):
                  "--incoherent": None, "--plot": (pngs_ok, pngs_bad, ()), "--overwrite": None, "--json": None},
         "channel": {"--range-m": (("1000",), num, ()), "--depth-m": (("6",), num, ()), "--json": None,
                     "--plot": (pngs_ok, pngs_bad, ()), "--overwrite": None},
-        "link": {"--rate-baud": (("500",), num, ()), "--modulation": (("qpsk", "bpsk"), (), ()),
+        "link": {"--rate-baud": (("500",), num + ("0.001", "1e5"), ()), "--modulation": (("qpsk", "bpsk"), (), ()),
                  "--receiver": (("dfe", "none"), (), ()), "--algorithm": (("rls", "nlms"), (), ()),
                  "--rolloff": (("0.25",), ("2", "-1", "x"), ()), "--symbols": (("500",), ("0", "2.5", "x", "-4"), ()),
                  "--max-errors": (("20",), ("0", "x"), ()), "--seed": (("3",), ("-1", "x", "1.5"), ()),
@@ -135,6 +162,8 @@ def _options(f):
                   "--target-ber": (("1e-3",), ("0", "1", "x"), ()), "--margin-db": (("3",), ("50", "-1"), ()),
                   "--chunk-ranges": (("1",), ("0", "x", "1.5"), ()), "--resume": None, "--overwrite": None,
                   "--quiet": None, "--plot": (pngs_ok, pngs_bad, ()), "--json": None},
+        "redraw": {"--plot": (pngs_ok, pngs_bad, ()), "--overwrite": None,
+                   "--site": ((str(ENV / "shelf_summer.toml"),), (f["missing"], f["broken_toml"]), ())},
         "demo": {"--out": ((f["new_png"] + ".d",), (f["exists_dir"], f["exists_png"], f["missing_dir_png"]), ()),
                  "--site": (("shelf_summer",), ("atlantis", ""), ()), "--seed": (("1",), ("x", "-1"), ()),
                  "--quick": None, "--quiet": None},
@@ -142,9 +171,15 @@ def _options(f):
 
 
 #: Commands whose valid runs are cheap enough to run in the fuzz test (with small fans).
-CHEAP = ("site", "rays", "arrivals")
+CHEAP = ("site", "rays", "arrivals", "redraw")
 #: Options a command cannot run without.
-REQUIRED = {"link": ("--rate-baud",), "sweep": ("--ranges-m", "--depths-m", "-o")}
+REQUIRED = {"link": ("--rate-baud",), "sweep": ("--ranges-m", "--depths-m", "-o"), "redraw": ("--plot",)}
+
+
+def _result(f):
+    """What ``redraw`` may be given: results it draws, and files it must refuse."""
+    return st.sampled_from([f["sweep_nc"], f["plan_json"], f["bad_json"], f["broken_toml"], f["missing"],
+                            f["exists_csv"], f["exists_nc"], f["folder"]])
 
 
 @st.composite
@@ -172,7 +207,9 @@ def command_lines(draw, files):
     if poison is not None and "--overwrite" in chosen:
         chosen.remove("--overwrite")  # an existing output must stay a mistake
     argv = [command]
-    if command != "demo":
+    if command == "redraw":
+        argv.append(draw(_result(files)))
+    elif command != "demo":
         argv.append(draw(_site(files)))
     for name in chosen:
         spec = table[name]

@@ -49,7 +49,8 @@ def test_command_line_never_breaks_its_contract(argv):
 
 
 @settings(max_examples=30, deadline=None, database=None)
-@given(command=st.sampled_from(["site", "rays", "arrivals", "loss", "channel", "link", "plan", "sweep", "demo"]),
+@given(command=st.sampled_from(["site", "rays", "arrivals", "loss", "channel", "link", "plan", "sweep", "redraw",
+                                 "demo"]),
        junk=st.lists(st.text(alphabet="-=:,.x0123456789e", min_size=1, max_size=8), max_size=4))
 def test_junk_words_are_one_line(command, junk):
     """Arbitrary words after a command: a usage mistake is still one line, exit 2."""

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import csv
 from html.parser import HTMLParser
+from pathlib import Path
 
 import matplotlib.image as mpimg
 import pytest
@@ -147,3 +148,38 @@ def test_demo_geometry_stays_in_the_water():
             if site.seabed.range_m.size > 1:
                 assert geo.sweep_ranges_m.max() <= site.seabed.max_range_m
             assert geo.sweep_depths_m.max() < np.max(site.seabed.depth_at(geo.sweep_ranges_m))
+
+
+def _imports(path):
+    import ast
+
+    tree = ast.parse(path.read_text(encoding="utf-8"))
+    names = set()
+    for node in ast.walk(tree):
+        if isinstance(node, ast.ImportFrom) and node.module:
+            names.add(node.module)
+        elif isinstance(node, ast.Import):
+            names.update(a.name for a in node.names)
+    return names, tree
+
+
+def test_reports_live_in_their_stage_not_in_the_cli():
+    """The demo calls the same reports as the commands, from the report module, never from another
+    command's module; and no command module defines a text or JSON report of its own (contract of
+    our layering; no outside source)."""
+    import ast
+
+    cli = Path(__file__).resolve().parents[1] / "aculink" / "cli"
+    names, _ = _imports(cli / "demo.py")
+    assert not [n for n in names if n.startswith("aculink.cli") and n != "aculink.cli._common"], names
+    for path in sorted(cli.glob("*.py")):
+        _, tree = _imports(path)
+        defined = [n.name for n in ast.walk(tree) if isinstance(n, ast.FunctionDef)]
+        assert not [d for d in defined if d.startswith(("format_", "report", "arrivals_table", "eigenray", "conclusion",
+                                                        "heading", "sent_text"))], (path.name, defined)
+    # nothing outside the command line imports it (the package's __main__ aside)
+    for path in (cli.parent).rglob("*.py"):
+        if cli in path.parents or path.name == "__main__.py":
+            continue
+        names, _ = _imports(path)
+        assert not [n for n in names if n.startswith("aculink.cli")], path

@@ -14,7 +14,7 @@ from aculink.cli._common import (EXIT_BROKEN_PIPE, Parser, UsageError, check_opt
                                  check_plot_path, fail, handle_errors, option_strings, quiet_stdout)
 
 #: Subcommands in pipeline order; each names a module of this package.
-COMMANDS = ("site", "rays", "arrivals", "loss", "channel", "link", "plan", "sweep", "demo")
+COMMANDS = ("site", "rays", "arrivals", "loss", "channel", "link", "plan", "sweep", "redraw", "demo")
 
 
 def build_parser() -> Parser:

@@ -51,7 +51,7 @@ FIELD_SITE_KEYS = {
     "bandwidth_hz": "[modem] bandwidth_hz", "rolloff": "[modem] rolloff", "margin_db": "[modem] margin_db",
     "target_ber": "[modem] target_ber",
 }
-_FIELD_RE = re.compile(r"^([a-z][a-z0-9_]*)(?= = | is | must |: )")
+_FIELD_RE = re.compile(r"^([a-z][a-z0-9_]*)(?= = | is | must |: | needs | has | should )")
 
 
 class UsageError(AculinkError):
@@ -150,16 +150,40 @@ def check_geometry(args, site) -> None:
     for dest, at in (("depth_m", r), ("source_depth_m", 0.0)):
         name = given(dest)
         if name is not None:
-            bottom = float(bed.depth_at(min(at, float(bed.max_range_m))))
-            _with_reason(check_range, f"the seabed is {bottom:.1f} m deep at range {at:g} m", name,
-                         getattr(args, dest), 0.0, bottom, low_open=True, high_open=True, unit="m")
+            check_in_water(name, getattr(args, dest), float(bed.depth_at(min(at, float(bed.max_range_m)))), at)
     name = given("rate_baud")
     if name is not None:
         b = getattr(args, "bandwidth_hz", None) or site.modem.bandwidth_hz
         a = getattr(args, "rolloff", None)
-        a = site.modem.rolloff if a is None else a
-        _with_reason(check_range, f"the band allows {b:g} Hz / (1 + rolloff {a:g})", name, args.rate_baud,
-                     0.0, b / (1.0 + a), low_open=True, unit="Bd")
+        check_symbol_rate(name, args.rate_baud, b, site.modem.rolloff if a is None else a)
+
+
+def check_in_water(name, value, bottom_m, at_range_m) -> float:
+    """A depth strictly between the surface and the seabed, stated to the 0.1 m a chart gives."""
+    from aculink.io.formats import depth_text, range_text
+
+    v = check_range(name, value, 0.0, None, low_open=True, unit="m")
+    if v >= bottom_m:
+        raise AculinkError(f"{name} = {v:g} m: allowed range is (0, {depth_text(bottom_m)}) m (the seabed is "
+                           f"{depth_text(bottom_m)} m deep at range {range_text(at_range_m)})")
+    return v
+
+
+#: Slowest symbol rate the simulator takes, as a fraction of the fastest the band allows: the
+#: simulation runs at the band's sample rate, so a symbol then lasts this many samples (and the
+#: payload's memory grows with it). Our own limit, no source.
+MIN_RATE_FRACTION = 1.0 / 256.0
+
+
+def check_symbol_rate(name, value, bandwidth_hz, rolloff) -> float:
+    """A symbol rate within what the band allows, B / (1 + rolloff), and at least
+    :data:`MIN_RATE_FRACTION` of that."""
+    top = bandwidth_hz / (1.0 + rolloff)
+    fast = isinstance(value, (int, float)) and value > top
+    reason = (f"the band allows {bandwidth_hz:g} Hz / (1 + rolloff {rolloff:g})" if fast else
+              f"1/{1.0 / MIN_RATE_FRACTION:g} of the fastest rate the band allows: slower symbols span too many "
+              "samples to simulate")
+    return _with_reason(check_range, reason, name, value, top * MIN_RATE_FRACTION, top, unit="Bd")
 
 
 def fail(message: str) -> int:
@@ -247,10 +271,14 @@ def parse_span(text: str, field: str, *, positive: bool = False) -> np.ndarray:
 def parse_count_span(text: str, field: str) -> np.ndarray:
     """Parse ``start:stop:count`` (a linspace, as for launch angles) or a comma list."""
     text = str(text).strip()
+    if ":" not in text:  # a comma list or one number
+        return parse_span(text, field)
     try:
         parts = [float(p) for p in text.split(":")]
     except ValueError:
-        raise AculinkError(f"{field} = {text!r}: expected start:stop:count") from None
+        raise AculinkError(f"{field} = {text!r}: expected start:stop:count or a comma list") from None
+    if len(parts) != 3:
+        raise AculinkError(f"{field} = {text!r}: expected start:stop:count or a comma list")
     if len(parts) == 3:
         start, stop, count = parts
         if count < 2 or count != int(count):

@@ -111,6 +111,7 @@ class Geometry:
 def run(args) -> int:
     from aculink.cautions import CAUTION_LINE
     from aculink.io.report import write_index
+    from aculink.io.reports import demo_conclusion
     from aculink.site.bundled import bundled_site_path
     from aculink.site.loader import load_site
 
@@ -128,7 +129,7 @@ def run(args) -> int:
             sections.extend(new)
             say(f"  {step.__name__.removeprefix('step_'):<10} {time.perf_counter() - t0:5.1f} s  "
                 + ", ".join(name for _, _, name in new), flush=True)
-        text = conclusion(site, tmp, args._geometry)
+        text = demo_conclusion(site, tmp / "plan.csv", args._geometry.plan_ranges_m, args._geometry.plan_depth_m)
         write_index(tmp, f"aculink demo: {site.name}", sections, conclusion=text, caution=CAUTION_LINE)
         publish_folder(tmp, out)
     except BaseException:
@@ -164,13 +165,12 @@ def step_site(site, out, args, done):
 def step_rays(site, out, args, done):
     import numpy as np
 
-    from aculink.cli.rays import eigenray_fan
-    from aculink.plots.rays import plot_rays
+    from aculink.plots.rays import eigenray_paths, plot_rays
     from aculink.propagation import trace_rays
 
     geo = args._geometry
     fan = trace_rays(site, angles_deg=geo.fan_angles_deg, max_range_m=geo.fan_range_m)
-    plot_rays(site, fan, out / "rays.png", eigenrays=eigenray_fan(site, fan))
+    plot_rays(site, fan, out / "rays.png", eigenrays=eigenray_paths(site, fan))
     step = np.diff(geo.fan_angles_deg)[0]
     return [("Ray fan", f"Rays launched every {step:g} degree from the source, each shaded by its level below the "
              "strongest ray at the same range, eigenrays to the receiver in black: "
@@ -178,13 +178,13 @@ def step_rays(site, out, args, done):
 
 
 def step_arrivals(site, out, args, done):
-    from aculink.cli.arrivals import arrivals_table, format_table
     from aculink.io.atomic import write_text_atomic
+    from aculink.io.reports import arrivals_table, format_arrivals
     from aculink.io.tables import write_csv
     from aculink.propagation.eigenrays import solve_arrivals
 
     table = arrivals_table(*solve_arrivals(site))
-    write_text_atomic(out / "arrivals.txt", format_table(table) + "\n")
+    write_text_atomic(out / "arrivals.txt", format_arrivals(table) + "\n")
     keys = list(table["arrivals"][0]) if table["arrivals"] else ["delay_s"]
     write_csv(out / "arrivals.csv", keys, table["arrivals"])
     return [("Eigenrays at the receiver", "Every significant path: delay after the first arrival, level "
@@ -194,13 +194,13 @@ def step_arrivals(site, out, args, done):
 
 def step_channel(site, out, args, done):
     from aculink.channel import channel_for_site, link_budget
-    from aculink.cli.channel import format_report, report
     from aculink.io.atomic import write_text_atomic
+    from aculink.io.reports import channel_report, format_channel
     from aculink.plots.channel import plot_channel
 
     channel = channel_for_site(site)
     budget = link_budget(site, channel)
-    write_text_atomic(out / "channel.txt", format_report(report(site, channel, budget)) + "\n")
+    write_text_atomic(out / "channel.txt", format_channel(channel_report(site, channel, budget)) + "\n")
     plot_channel(channel, out / "channel.png", site=site)
     args._channel, args._budget = channel, budget
     return [("Channel and link budget", "Delay spread, coherence bandwidth, transmission loss, noise and "
@@ -211,17 +211,16 @@ def step_channel(site, out, args, done):
 
 
 def step_plan(site, out, args, done):
-    from aculink.cli.plan import display_row, heading, table_columns
     from aculink.io.atomic import write_text_atomic
-    from aculink.io.tables import format_table, write_csv
+    from aculink.io.reports import format_plan
+    from aculink.io.tables import write_csv
     from aculink.planning.table import ROW_KEYS, plan_rates, plan_rows
     from aculink.plots.plan import plot_plan
 
     geo = args._geometry
     ds = plan_rates(site, geo.plan_ranges_m, depth_m=geo.plan_depth_m)
     rows = plan_rows(ds)
-    text = heading(site, ds) + "\n" + format_table(table_columns(False), [display_row(r) for r in rows])
-    write_text_atomic(out / "plan.txt", text + "\n")
+    write_text_atomic(out / "plan.txt", format_plan(site, ds, rows) + "\n")
     write_csv(out / "plan.csv", ROW_KEYS + ("error",), rows)
     plot_plan(ds, site, out / "plan.png")
     args._plan = ds
@@ -293,42 +292,3 @@ def demo_symbol_rate(site, plan) -> float:
     if np.isfinite(rates[i]) and rates[i] > 0:
         return float(rates[i])
     return float(site.modem.bandwidth_hz / (1.0 + site.modem.rolloff) / 2.0)
-
-
-def conclusion(site, out, geometry) -> str:
-    """Two sentences a planner can act on, from the table just written."""
-    import csv
-
-    with open(out / "plan.csv", newline="", encoding="utf-8") as f:
-        rows = list(csv.DictReader(f))
-    at = min(rows, key=lambda r: abs(float(r["range_m"]) - site.receiver.range_m))
-    rng = float(at["range_m"]) / 1000.0
-    if at["net_bit_rate_bps"] and float(at["net_bit_rate_bps"]) > 0:
-        first = (f"At {rng:g} km the best receiver ({at['receiver']}) sustains "
-                 f"{float(at['net_bit_rate_bps']):,.0f} bit/s with {at['modulation'].upper()} at "
-                 f"{float(at['symbol_rate_baud']):,.0f} Bd and {float(at['margin_db']):.1f} dB of margin.")
-    else:
-        first = f"At {rng:g} km no configuration meets the target BER with the margin."
-    return first + " " + no_equalizer_reach(site, geometry)
-
-
-def no_equalizer_reach(site, geometry) -> str:
-    """Where the receiver without equalizer stops being workable, from a table for it alone."""
-    import numpy as np
-
-    from aculink.planning.table import plan_rates
-
-    ds = plan_rates(site, geometry.plan_ranges_m, depth_m=geometry.plan_depth_m, receivers=["none"])
-    ok = np.nan_to_num(ds["net_bit_rate_bps"].values) > 0
-    r = ds["range"].values / 1000.0
-    if not ok.any():
-        return (f"The receiver without equalizer fails at every range from {r[0]:g} km: the multipath needs an "
-                "equalizer.")
-    if ok.all():
-        return f"The receiver without equalizer still works out to {r[-1]:g} km here."
-    last = r[np.nonzero(ok)[0][-1]]
-    gaps = int(np.sum(~ok[: np.nonzero(ok)[0][-1]]))
-    text = f"The receiver without equalizer fails beyond {last:g} km"
-    if gaps:
-        text += f" (and already at {gaps} of the shorter ranges, where the multipath is worse)"
-    return text + "."

@@ -2,11 +2,7 @@
 
 from __future__ import annotations
 
-import math
-
-from aculink.cli._common import add_site_argument, load_site_arg, print_json
-
-from aculink.cautions import CAUTION_LINE as CAUTION
+from aculink.cli._common import add_site_argument, check_symbol_rate, load_site_arg, print_json
 
 
 def register(subparsers) -> None:
@@ -47,12 +43,16 @@ def register(subparsers) -> None:
 def _channel_and_budget(args):
     from aculink.channel import channel_for_site, link_budget, load_channel_file
     from aculink.errors import AculinkError
+    from aculink.modem.simulate import DEFAULT_ROLLOFF
 
     site = load_site_arg(args.site, args) if args.site else None
     if args.channel_file:
         fc = args.carrier_hz if args.carrier_hz is not None else (site.modem.carrier_hz if site else None)
         bw = args.bandwidth_hz if args.bandwidth_hz is not None else (site.modem.bandwidth_hz if site else None)
         channel = load_channel_file(args.channel_file, carrier_hz=fc, bandwidth_hz=bw, symbol_rate_baud=args.rate_baud)
+        if channel.bandwidth_hz:
+            rolloff = args.rolloff if args.rolloff is not None else (site.modem.rolloff if site else DEFAULT_ROLLOFF)
+            check_symbol_rate("--rate-baud", args.rate_baud, float(channel.bandwidth_hz), rolloff)
         if args.snr_db is None and site is None:
             raise AculinkError("--snr-db is required with --channel-file unless a SITE gives the link budget")
     else:
@@ -76,77 +76,8 @@ def _channel_and_budget(args):
 RELATIVE_TL_DB = 20.0
 
 
-def report(site, channel, result) -> dict:
-    """The JSON object: the result's numbers plus site, geometry and units."""
-    out = {"site": site.name if site else None, "channel": channel.name}
-    geo = getattr(channel, "geometry", {}) or {}
-    out.update({k: geo.get(k) for k in ("range_m", "receiver_depth_m", "source_depth_m") if k in geo})
-    out.update(result.to_dict())
-    out["units"] = {"snr_in_db": "dB (band SNR: received power / noise power in the band)",
-                    "es_n0_db": "dB (received Es/N0)", "snr_out_db": "dB (measured, unbiased)",
-                    "snr_predicted_db": "dB (finite-length MMSE estimate of this receiver)",
-                    "net_bit_rate_bps": "bit/s (0 when the link did not close; see failure)",
-                    "frame_bit_rate_bps": "bit/s (what the frame would carry if the link closed)",
-                    "symbol_rate_baud": "Bd",
-                    "doppler_bound": "1 (largest time scale searched: platform and surface motion)",
-                    "training_fraction": "1 (training, tail marker and guard over the frame)"}
-    out["caution"] = CAUTION
-    return out
-
-
-def sent_text(rep: dict) -> str:
-    """How many symbols went out and why that differs from --symbols (whole frames, early stop)."""
-    frames, payload = rep["frames"], rep["n_payload"]
-    total = frames * (rep["n_training"] + payload)
-    text = f"{frames} frame{'s' if frames != 1 else ''} = {total} symbols ({frames * payload} payload)"
-    asked = rep.get("symbols_requested")
-    if asked is not None and frames * payload > asked:
-        text += f"; --symbols {asked} is rounded up to whole frames of {payload} payload symbols"
-    elif asked is not None and frames * payload < asked:
-        text += f"; stopped before --symbols {asked} once --max-errors bit errors were counted"
-    return text
-
-
-def format_report(rep: dict) -> str:
-    def db(v):
-        return "n/a" if v is None or (isinstance(v, float) and not math.isfinite(v)) else f"{v:.1f} dB"
-
-    rows = [("Site", rep["site"] or "(channel file)"), ("Channel", rep["channel"])]
-    if rep.get("range_m") is not None:
-        rows.append(("Geometry", f"receiver at {rep['range_m'] / 1000:g} km, {rep.get('receiver_depth_m', float('nan')):g} m deep"))
-    rows += [
-        ("Signal", f"{rep['modulation']} at {rep['symbol_rate_baud']:g} Bd, RRC roll-off {rep['rolloff']:g}"),
-        ("Receiver", f"{rep['receiver']}" + (f" ({rep['algorithm']})" if rep["algorithm"] != "none" else "")
-         + f", {rep['n_ff']} feedforward (T/2) and {rep['n_fb']} feedback taps"),
-        ("Frame", f"{rep['n_training']} training + {rep['n_payload']} payload symbols; overhead "
-                  f"{100 * rep['training_fraction']:.1f} %"),
-        ("Sent", sent_text(rep)),
-        ("Band SNR in", db(rep["snr_in_db"])),
-        ("Es/N0 received", db(rep["es_n0_db"])),
-        ("Output SNR measured", db(rep["snr_out_db"])),
-        ("Output SNR predicted", db(rep["snr_predicted_db"])),
-        ("BER", f"{rep['ber']:.3g}  (95% interval {rep['ber_low']:.3g} to {rep['ber_high']:.3g}; "
-                f"{rep['bit_errors']} errors in {rep['bits']} bits, {rep['frames']} frames)"),
-        ("BER predicted", f"{rep['ber_predicted']:.3g}"),
-    ]
-    if rep["closed"]:
-        rows.append(("Link", f"closed: measured BER at or below the target {rep['target_ber']:.3g}"))
-        rows.append(("Net bit rate", f"{rep['net_bit_rate_bps']:.0f} bit/s"))
-    else:
-        rows.append(("Link", f"DID NOT CLOSE: {rep['failure']}"))
-        rows.append(("Net bit rate", "none (the link did not close)"))
-    if rep["frames_lost"] or rep["frames_diverged"] or rep["recoveries"]:
-        rows.append(("Frames", f"{rep['frames_lost']} lost, {rep['frames_diverged']} diverged or out of lock, "
-                               f"{rep['recoveries']} divergences recovered"))
-    dopp = f"{rep['doppler_estimate']:.2e} (time scale; searched within +-{rep['doppler_bound']:.1e})"
-    if rep.get("doppler_note"):
-        dopp += f"; not applied: {rep['doppler_note']}"
-    rows.append(("Doppler estimate", dopp))
-    width = max(len(k) for k, _ in rows)
-    return "\n".join([f"{k:<{width}}  {v}" for k, v in rows] + ["", rep["caution"]])
-
-
 def run(args) -> int:
+    from aculink.io.reports import format_link, link_report, written_lines
     from aculink.modem import simulate_link
 
     site, channel, budget = _channel_and_budget(args)
@@ -156,7 +87,7 @@ def run(args) -> int:
                            n_symbols=args.symbols, max_errors=args.max_errors, seed=args.seed,
                            algorithm=args.algorithm, sparse=args.sparse,
                            target_ber=site.modem.target_ber if site else None)
-    rep = report(site, channel, result)
+    rep = link_report(site, channel, result)
     rep["symbols_requested"] = args.symbols
     if args.plot:
         from aculink.plots.link import plot_link
@@ -166,7 +97,7 @@ def run(args) -> int:
     if args.json:
         print_json(rep)
     else:
-        print(format_report(rep))
-        if args.plot:
-            print(f"plot written to {args.plot}")
+        print(format_link(rep))
+        for line in written_lines([args.plot]):
+            print(line)
     return 0

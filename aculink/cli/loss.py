@@ -68,8 +68,8 @@ def _fan(args):
     from aculink.propagation.rays import MAX_LAUNCH_DEG
 
     angles = parse_count_span(args.angles_deg, "--angles-deg")
-    if angles.size < 2:
-        raise AculinkError(f"--angles-deg = '{args.angles_deg}': a beam fan needs at least 2 launch angles")
+    if len(set(angles.tolist())) < 2:
+        raise AculinkError(f"--angles-deg = '{args.angles_deg}': a beam fan needs at least 2 launch angles, and they must differ")
     bad = angles[abs(angles) > MAX_LAUNCH_DEG]
     if bad.size:
         raise AculinkError(f"--angles-deg = {bad[0]:g} deg: allowed range is "
@@ -93,6 +93,7 @@ def labelled(tl, site):
 def run(args) -> int:
     import numpy as np
 
+    from aculink.io.reports import format_loss, loss_summary, written_lines
     from aculink.propagation.loss import transmission_loss
 
     check_plot_path(args)
@@ -114,15 +115,8 @@ def run(args) -> int:
         from aculink.plots.loss import plot_loss
 
         plot_loss(site, tl, args.plot, incoherent=args.incoherent, overwrite=args.overwrite)
-    rx = tl.sel(range=site.receiver.range_m, depth=site.receiver.depth_m, method="nearest")
-    summary = {"site": site.name, "source_depth_m": tl.attrs["source_depth_m"], "frequency_hz": tl.attrs["frequency_hz"],
-               "n_ranges": int(tl.sizes["range"]), "n_depths": int(tl.sizes["depth"]),
-               "n_beams": int(tl.attrs["n_beams"]),
-               "receiver_range_m": float(rx.range), "receiver_depth_m": float(rx.depth),
-               "tl_coherent_db_at_receiver": float(rx.tl_coherent_db),
-               "tl_incoherent_db_at_receiver": float(rx.tl_incoherent_db),
-               "tl_incoherent_db_min": float(np.nanmin(tl.tl_incoherent_db)),
-               "tl_incoherent_db_max": float(np.nanmax(tl.tl_incoherent_db)), "plot": args.plot, "out": args.out}
+    summary = loss_summary(site, tl)
+    summary.update({"plot": args.plot, "out": args.out})
     if args.json:
         # the grid: TL[range][depth], dB re 1 m, null below the seabed
         summary.update({"units": "dB re 1 m", "range_m": tl.range.values, "depth_m": tl.depth.values,
@@ -130,14 +124,8 @@ def run(args) -> int:
                         "caution": CAUTION})
         print_json(summary)
         return 0
-    print(f"{site.name}: TL at {summary['frequency_hz'] / 1000:g} kHz, source {summary['source_depth_m']:g} m deep, "
-          f"{summary['n_ranges']} x {summary['n_depths']} grid points, {summary['n_beams']} beams (dB re 1 m)")
-    print(f"  at the receiver grid point ({summary['receiver_range_m'] / 1000:g} km, {summary['receiver_depth_m']:g} m): "
-          f"coherent {summary['tl_coherent_db_at_receiver']:.1f} dB, incoherent "
-          f"{summary['tl_incoherent_db_at_receiver']:.1f} dB")
-    if args.out is not None:
-        print(f"Grid written to {args.out}")
-    if args.plot is not None:
-        print(f"Plot written to {args.plot}")
+    print(format_loss(summary))
+    for line in written_lines([args.out, args.plot]):
+        print(line)
     print(CAUTION)
     return 0

@@ -2,11 +2,10 @@
 
 from __future__ import annotations
 
-import math
-import sys
 from pathlib import Path
 
 from aculink.cli._common import add_site_argument, load_site_arg, parse_span, print_json
+from aculink.io import reports as _reports
 
 DEFAULT_RANGES = "500:20000:500"
 
@@ -41,6 +40,10 @@ def register(subparsers) -> None:
     p.add_argument("--members", type=int, default=64, metavar="N",
                    help="with --availability: most ensemble members to draw (default 64; a discrete "
                    "ensemble no larger than N is enumerated exactly)")
+    p.add_argument("--workers", type=int, default=None, metavar="N",
+                   help="with --availability: run the members on N local Dask workers (default: serial)")
+    p.add_argument("--scheduler", default=None, metavar="ADDRESS",
+                   help="with --availability: run the members on this Dask scheduler (tcp://host:port)")
     p.add_argument("--csv", default=None, metavar="FILE", help="also write the table as CSV")
     p.add_argument("--plot", default=None, metavar="FILE.png", help="draw rate against range")
     p.add_argument("--overwrite", action="store_true", help="replace existing --csv/--plot files")
@@ -77,8 +80,8 @@ def default_ranges(site, depth_m):
 
 
 def run(args) -> int:
-    from aculink.io.tables import format_table, write_csv
-    from aculink.planning.dataset import CAUTION
+    from aculink.io.reports import format_plan, plan_document, written_lines
+    from aculink.io.tables import write_csv
     from aculink.planning.table import ROW_KEYS, VERIFY_KEYS, plan_rates, plan_rows
 
     _outputs_free(args)
@@ -90,6 +93,11 @@ def run(args) -> int:
     receivers = args.receiver if args.receiver == "all" else [args.receiver]
     if args.availability is not None:
         return run_availability(args, site, ranges, receivers)
+    if args.workers is not None or args.scheduler is not None:
+        from aculink.errors import AculinkError
+
+        raise AculinkError("--workers/--scheduler: only with --availability (the plan table itself runs "
+                           "in this process)")
     ds = plan_rates(site, ranges, depth_m=args.depth_m, receivers=receivers,
                     target_ber=args.target_ber, margin_db=args.margin_db, verify=args.verify,
                     seed=args.seed, verify_max_bits=args.verify_max_bits)
@@ -102,88 +110,20 @@ def run(args) -> int:
 
         plot_plan(ds, site, args.plot)
     if args.json:
-        doc = {"site": site.name, "receiver_depth_m": ds.attrs["receiver_depth_m"],
-               "source_depth_m": ds.attrs["source_depth_m"],
-               "target_ber": ds.attrs["target_ber"], "margin_db": ds.attrs["margin_db"],
-               "receivers": list(ds["receiver"].values), "caution": CAUTION, "rows": rows}
-        if args.verify:
-            doc["verify"] = {"seed": ds.attrs["verify_seed"], "confidence": ds.attrs["verify_confidence"],
-                             "tolerance_db": ds.attrs["verify_tolerance_db"]}
-        print_json(doc)
+        print_json(plan_document(site, ds, rows, verify=args.verify))
         return 0
-    print(heading(site, ds))
-    print(format_table(table_columns(args.verify), [display_row(r) for r in rows]))
-    for r in rows:
-        if r["error"]:
-            print(f"  {r['range_m'] / 1000:g} km: {r['error']}")
-    if args.verify:
-        for line in verify_summary(rows):
-            print(line)
-    print(f"caution: {CAUTION}")
-    for note in (args.csv and f"wrote {args.csv}", args.plot and f"wrote {args.plot}"):
-        if note:
-            print(note, file=sys.stderr)
+    print(format_plan(site, ds, rows, verify=args.verify))
+    for line in written_lines([args.csv, args.plot]):
+        print(line)
     return 0
 
 
-def heading(site, ds) -> str:
-    return (f"{site.name}: workable rate against range, receiver {ds.attrs['receiver_depth_m']:g} m deep, "
-            f"source {ds.attrs['source_depth_m']:g} m deep, target BER {ds.attrs['target_ber']:.0e} "
-            f"with {ds.attrs['margin_db']:g} dB margin")
-
-
-def table_columns(verify: bool) -> list:
-    cols = [("range_km", "range\nkm", "g"), ("rate_kbps", "net rate\nkbit/s", ".3g"),
-            ("modulation", "\nmodulation", ""), ("symbol_rate_baud", "symbol rate\nbaud", ".0f"),
-            ("receiver", "\nreceiver", ""), ("snr_band_db", "band SNR\ndB", ".1f"),
-            ("snr_out_db", "output SNR\ndB", ".1f"), ("ber_predicted", "predicted\nBER", ".1e"),
-            ("margin_db", "margin\ndB", ".1f"), ("spread_ms", "90% spread\nms", ".3g"),
-            ("tl_db", "TL\ndB re 1 m", ".1f")]
-    if verify:
-        cols += [("ber_measured", "measured\nBER", ".1e"), ("verify_verdict", "\ncheck", "")]
-    return cols
-
-
-#: The mark a table puts after a rate its Monte Carlo check did not confirm, by verdict.
-RATE_MARKS = {"fails": " !", "optimistic": " ?", "undecided": " ?", "error": " ?"}
-
-
-def verify_summary(rows) -> list:
-    """Lines under a verified table: the count of each verdict, then every unconfirmed row."""
-    checked = [r for r in rows if r.get("verify_verdict")]
-    counts = {}
-    for r in checked:
-        counts[r["verify_verdict"]] = counts.get(r["verify_verdict"], 0) + 1
-    told = ", ".join(f"{word} {n}" for word, n in counts.items()) or "nothing to check"
-    lines = [f"Monte Carlo check of {len(checked)} chosen configurations: {told}."]
-    for r in checked:
-        if r["verify_note"]:
-            lines.append(f"  {r['range_m'] / 1000:g} km{RATE_MARKS.get(r['verify_verdict'], '')}: "
-                         f"{r['verify_verdict']}: {r['verify_note']}")
-    if any(r["verify_verdict"] == "fails" for r in checked):
-        lines.append("  ! the simulated link misses the target BER at this rate: do not plan on it")
-    if any(RATE_MARKS.get(r["verify_verdict"]) == " ?" for r in checked):
-        lines.append("  ? the rate is not confirmed by the simulation (see the note)")
-    return lines
-
-
-def display_row(row: dict) -> dict:
-    """A table row in display units (km, kbit/s, ms)."""
-    out = dict(row)
-    out["range_km"] = row["range_m"] / 1000.0
-    rate = row["net_bit_rate_bps"]
-    out["rate_kbps"] = None if rate is None else rate / 1000.0
-    out["spread_ms"] = None if row["spread_90_s"] is None else row["spread_90_s"] * 1000.0
-    mark = RATE_MARKS.get(row.get("verify_verdict") or "", "")
-    if mark and rate:
-        # a rate the Monte Carlo check did not confirm never prints without its mark
-        out["rate_kbps"] = format(rate / 1000.0, ".3g") + mark
-    if rate == 0:
-        out["modulation"] = "none workable"
-    for key in ("snr_band_db", "tl_db"):
-        if out.get(key) is not None and not math.isfinite(out[key]):
-            out[key] = None
-    return out
+#: The table's pieces, where tests and scripts have found them (the reports live in aculink.io.reports).
+heading = _reports.plan_heading
+table_columns = _reports.plan_columns
+display_row = _reports.plan_display_row
+verify_summary = _reports.verify_summary
+RATE_MARKS = _reports.RATE_MARKS
 
 
 def run_availability(args, site, ranges, receivers) -> int:
@@ -191,14 +131,16 @@ def run_availability(args, site, ranges, receivers) -> int:
     from aculink.errors import AculinkError
     from aculink.io.tables import format_table, write_csv
     from aculink.planning import availability as av
-    from aculink.planning.dataset import CAUTION
+    from aculink.cautions import CAUTION_LINE
 
     if args.verify:
         raise AculinkError("--verify and --availability: choose one (verify the nominal plan without "
                            "--availability)")
     ds = av.plan_availability(site, ranges, depth_m=args.depth_m, probability=args.availability,
                               members=args.members, seed=args.seed, receivers=receivers,
-                              target_ber=args.target_ber, margin_db=args.margin_db)
+                              target_ber=args.target_ber, margin_db=args.margin_db,
+                              workers=0 if args.workers is None and args.scheduler is None else args.workers,
+                              scheduler=args.scheduler)
     rows = av.availability_rows(ds)
     keys = av.AVAILABILITY_KEYS + tuple(k for k in rows[0] if k.startswith("rate_at_"))
     if args.csv:
@@ -214,13 +156,12 @@ def run_availability(args, site, ranges, receivers) -> int:
                     "ensemble": ds.attrs["ensemble"], "members": int(ds.attrs["members"]),
                     "converged": bool(ds.attrs["converged"]), "seed": int(ds.attrs["seed"]),
                     "variability": None if site.variability is None else site.variability.to_dict(),
-                    "caution": CAUTION, "rows": rows})
+                    "caution": CAUTION_LINE, "rows": rows})
         return 0
     print(av.availability_heading(ds))
     print(format_table(av.availability_columns(ds), [av.availability_display(r) for r in rows]))
     print(av.availability_reading(ds, rows))
-    print(f"caution: {CAUTION}")
-    for note in (args.csv and f"wrote {args.csv}", args.plot and f"wrote {args.plot}"):
-        if note:
-            print(note, file=sys.stderr)
+    print(CAUTION_LINE)
+    for line in _reports.written_lines([args.csv, args.plot]):
+        print(line)
     return 0

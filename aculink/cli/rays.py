@@ -41,64 +41,27 @@ def register(subparsers) -> None:
 
 
 def run(args) -> int:
-    import numpy as np
-
-    from aculink.propagation.rays import TERMINATION_MEANINGS, trace_rays
-
-    from aculink.errors import check_range
+    from aculink.cautions import CAUTION_LINE
+    from aculink.io.reports import format_rays, rays_summary, written_lines
+    from aculink.propagation.rays import trace_rays
 
     check_plot_path(args)
     angles = parse_count_span(args.angles_deg, "--angles-deg")
-    check_range("--dynamic-range-db", args.dynamic_range_db, 0.0, 200.0, low_open=True, unit="dB")
     site = load_site_arg(args.site, args)
     fan = trace_rays(site, source_depth_m=args.source_depth_m, angles_deg=angles, max_range_m=args.max_range_m)
     if args.plot is not None:
-        from aculink.plots.rays import plot_rays
+        from aculink.plots.rays import eigenray_paths, plot_rays
 
-        eigen = eigenray_fan(site, fan, args.dynamic_range_db) if args.eigenrays else None
+        eigen = eigenray_paths(site, fan, args.dynamic_range_db) if args.eigenrays else None
         plot_rays(site, fan, args.plot, shade=args.shade, dynamic_range_db=args.dynamic_range_db,
                   eigenrays=eigen, overwrite=args.overwrite)
-    meanings = TERMINATION_MEANINGS.split()
-    term = fan.termination.values
-    counts = {meanings[k]: int(np.sum(term == k)) for k in range(len(meanings))}
+    summary = rays_summary(site, fan)
     if args.json:
-        print_json({
-            "site": site.name, "source_depth_m": fan.attrs["source_depth_m"], "max_range_m": fan.attrs["max_range_m"],
-            "rays": [{"launch_angle_deg": float(a), "surface_bounces": int(s), "bottom_bounces": int(b),
-                      "caustics": int(c), "termination": meanings[int(t)], "end_range_m": float(e)}
-                     for a, s, b, c, t, e in zip(fan.launch_angle_deg.values, fan.surface_bounces.values,
-                                                 fan.bottom_bounces.values, fan.caustics.values, term,
-                                                 fan.end_range_m.values)],
-            "termination_counts": counts, "plot": args.plot})
+        summary["plot"] = args.plot
+        print_json(summary)
         return 0
-    print(f"{site.name}: {fan.sizes['ray']} rays from {fan.attrs['source_depth_m']:g} m, "
-          f"{angles.min():g} to {angles.max():g} deg, out to {fan.attrs['max_range_m'] / 1000:g} km")
-    for name, n in counts.items():
-        if n:
-            print(f"  {n:5d} {name.replace('_', ' ')}")
-    print(f"  bounces per ray: surface {int(fan.surface_bounces.min())}-{int(fan.surface_bounces.max())}, "
-          f"seabed {int(fan.bottom_bounces.min())}-{int(fan.bottom_bounces.max())}")
-    if args.plot is not None:
-        print(f"Plot written to {args.plot}")
-    from aculink.cautions import CAUTION_LINE
-
+    print(format_rays(summary))
+    for line in written_lines([args.plot]):
+        print(line)
     print(CAUTION_LINE)
     return 0
-
-
-def eigenray_fan(site, fan, dynamic_range_db=40.0):
-    """The eigenrays from the fan's source to the site's receiver, traced as paths (None if out of reach)."""
-    import numpy as np
-
-    from aculink.propagation import find_arrivals, trace_rays
-
-    zs = float(fan.attrs["source_depth_m"])
-    rx = site.receiver
-    if rx.range_m > float(fan.attrs["max_range_m"]):
-        return None
-    arr = find_arrivals(site, rx.range_m, rx.depth_m, source_depth_m=zs, dynamic_range_db=dynamic_range_db)
-    angles = arr.launch_angle_deg.values.ravel()
-    angles = angles[np.isfinite(angles)]
-    if angles.size == 0:
-        return None
-    return trace_rays(site, source_depth_m=zs, angles_deg=angles, max_range_m=rx.range_m)

@@ -23,6 +23,7 @@ def register(subparsers) -> None:
 
 
 def run(args) -> int:
+    from aculink.io.reports import written_lines
     from aculink.site.summary import format_summary, summarize_site
 
     check_plot_path(args)
@@ -37,6 +38,6 @@ def run(args) -> int:
         print_json(summary)
     else:
         print(format_summary(summary))
-        if args.plot is not None:
-            print(f"\nPlot written to {args.plot}")
+        for line in written_lines([args.plot]):
+            print(line)
     return 0

@@ -96,5 +96,5 @@ def run(args) -> int:
         print(f"note: {note}")
     if args.plot:
         print(f"wrote {args.plot}")
-    print(f"caution: {CAUTION}")
+    print(f"Caution: {CAUTION}")
     return 0

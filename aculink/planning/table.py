@@ -19,7 +19,7 @@ from aculink.planning.sweep import candidate_grid, check_geometry
 
 #: JSON/CSV keys of a table row, in order (dataset variable or coordinate of the same meaning).
 ROW_KEYS = ("range_m", "net_bit_rate_bps", "modulation", "symbol_rate_baud", "receiver",
-            "snr_band_db", "snr_out_db", "ber_predicted", "margin_db", "spread_90_s", "tl_db")
+            "snr_band_db", "snr_out_predicted_db", "ber_predicted", "margin_db", "spread_90_s", "tl_db")
 VERIFY_KEYS = ("verify_verdict", "ber_measured", "ber_measured_low", "ber_measured_high", "bits_measured",
                "ber_dispersion", "snr_out_measured_db", "snr_out_repredicted_db", "verify_note")
 
@@ -382,7 +382,7 @@ def plan_rows(ds) -> list:
         workable = not math.isnan(rate) and rate > 0
         for key, name in (("modulation", "best_modulation"), ("receiver", "best_receiver")):
             row[key] = str(get(name, i)) if workable else None
-        for key, name in (("symbol_rate_baud", "best_symbol_rate_baud"), ("snr_out_db", "snr_out_db"),
+        for key, name in (("symbol_rate_baud", "best_symbol_rate_baud"), ("snr_out_predicted_db", "snr_out_db"),
                           ("ber_predicted", "ber_predicted"), ("margin_db", "margin_db")):
             row[key] = _number(get(name, i)) if workable else None
         for key in ("snr_band_db", "spread_90_s", "tl_db"):

@@ -4,7 +4,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from aculink.plots.style import figure, save, site_title, styled
+from aculink.io.formats import hz_text
+from aculink.plots.style import figure, geometry_text, save, site_title, styled
 
 __all__ = ["plot_arrivals"]
 
@@ -14,7 +15,7 @@ COUNT_CMAP = "viridis"
 
 @styled
 def plot_arrivals(summary, path=None, *, site=None):
-    """Draw :func:`aculink.cli.arrivals.arrivals_table`'s result: level (dB re 1 m) against delay
+    """Draw :func:`aculink.io.reports.arrivals_table`'s result: level (dB re 1 m) against delay
     after the first arrival (ms), stems shaded by the number of surface and seabed reflections.
 
     Parameters
@@ -53,9 +54,9 @@ def plot_arrivals(summary, path=None, *, site=None):
         ax.text(0.5, 0.5, f"no arrivals: {summary.get('reason') or 'none within the dynamic range'}",
                 ha="center", va="center", transform=ax.transAxes)
     ax.set_xlabel("delay after the first arrival (ms)")
-    ax.set_ylabel(f"level at {summary['frequency_hz'] / 1000:g} kHz (dB re 1 m)")
-    detail = (f"source {summary['source_depth_m']:g} m deep, receiver at {summary['range_m'] / 1000:g} km, "
-              f"{summary['depth_m']:g} m deep; {len(rows)} arrivals within {summary['dynamic_range_db']:g} dB")
+    ax.set_ylabel(f"level at {hz_text(summary['frequency_hz'])} (dB re 1 m)")
+    detail = (geometry_text(summary["source_depth_m"], summary["receiver_range_m"], summary["receiver_depth_m"])
+              + f"; {len(rows)} arrivals within {summary['dynamic_range_db']:g} dB")
     ax.set_title(site_title(site or summary["site"], detail), fontsize=9.5)
     if path is None:
         return fig

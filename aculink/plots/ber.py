@@ -10,7 +10,7 @@ _MARKERS = ("o", "s", "D", "^", "v")
 
 
 @styled
-def plot_ber_curves(curves, path, *, site=None, detail: str = "", ber_floor: float = 1e-6):
+def plot_ber_curves(curves, path=None, *, site=None, detail: str = "", ber_floor: float = 1e-6):
     """Draw measured BER (with 95 % Clopper-Pearson bars) and predictions against SNR.
 
     Parameters
@@ -18,8 +18,8 @@ def plot_ber_curves(curves, path, *, site=None, detail: str = "", ber_floor: flo
     curves : xarray.Dataset
         Dims ``receiver`` x ``snr``; variables ``ber``, ``ber_low``, ``ber_high`` (measured) and
         ``ber_predicted``; coordinate ``snr`` in dB.
-    path : str or Path
-        PNG to write.
+    path : str or Path, optional
+        PNG to write; without it the figure is returned.
     site : Site, optional
         For the title.
     detail : str
@@ -48,8 +48,12 @@ def plot_ber_curves(curves, path, *, site=None, detail: str = "", ber_floor: flo
     ax.set_ylim(ber_floor, 1.0)
     ax.set_xlabel("band SNR (dB)")
     ax.set_ylabel("bit error rate")
-    ax.set_title(site_title(site, detail) if site is not None else detail)
+    # the site on the first line and the configuration on the second: one line is clipped at this width
+    name = site_title(site) if site is not None else ""
+    ax.set_title("\n".join(t for t in (name, detail) if t), fontsize=9.5)
     ax.legend(ncols=2, loc="lower left")
+    if path is None:
+        return fig
     return save(fig, path)
 
 

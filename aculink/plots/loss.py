@@ -6,7 +6,9 @@ import numpy as np
 from matplotlib.colors import ListedColormap
 
 from aculink.plots.rays import draw_section
-from aculink.plots.style import FIELD_CMAP, PALETTE, figure, geometry_text, save, site_title, styled
+from aculink.io.formats import hz_text
+from aculink.plots.style import (FIELD_CMAP, clip_to_water, equipment_labels, figure, geometry_text, mark_equipment, save, site_title,
+                                 styled)
 
 __all__ = ["plot_loss"]
 
@@ -49,19 +51,23 @@ def plot_loss(site, tl, path=None, *, incoherent=False, overwrite: bool = True, 
     draw_section(ax, site, end_m)
     mesh = ax.pcolormesh(r[ro] / 1e3, z[zo], values, cmap=f"{FIELD_CMAP}_r", vmin=lo, vmax=lo + span_db,
                          shading="nearest", zorder=1, rasterized=True)
+    clip_to_water(mesh, ax, site, 2.0 * end_m / 1e3)
     if silent.any():
-        ax.pcolormesh(r[ro] / 1e3, z[zo], np.ma.masked_where(~silent, np.ones(silent.shape)),
-                      cmap=ListedColormap(["0.85"]), shading="nearest", zorder=1, rasterized=True)
+        grey = ax.pcolormesh(r[ro] / 1e3, z[zo], np.ma.masked_where(~silent, np.ones(silent.shape)),
+                             cmap=ListedColormap(["0.85"]), shading="nearest", zorder=1, rasterized=True)
+        clip_to_water(grey, ax, site, 2.0 * end_m / 1e3)
         ax.text(0.99, 0.02, "grey: no beam reaches", transform=ax.transAxes, ha="right", va="bottom", fontsize=8)
     fig.colorbar(mesh, ax=ax, label=f"{'incoherent' if incoherent else 'coherent'} TL (dB re 1 m)", pad=0.01)
     zs = float(tl.attrs["source_depth_m"])
-    ax.plot(0.0, zs, "*", ms=13, color=PALETTE[4], mec="black", mew=0.5, clip_on=False, zorder=6)
     rx = site.receiver
-    if rx.range_m <= end_m:
-        ax.plot(rx.range_m / 1e3, rx.depth_m, "v", ms=8, color=PALETTE[3], mec="black", mew=0.5, zorder=6)
+    show_rx = rx.range_m <= end_m
+    src_label, rx_label = equipment_labels(zs, rx.range_m, rx.depth_m)
+    handles = mark_equipment(ax, (0.0, zs), (rx.range_m / 1e3, rx.depth_m) if show_rx else None,
+                             source_label=src_label, receiver_label=rx_label if show_rx else None)
+    fig.legend(handles=handles, loc="outside lower center", ncol=len(handles), fontsize=7.5)
     ax.set_ylabel("depth (m)")
     ax.grid(False)
-    detail = geometry_text(zs, rx.range_m, rx.depth_m) + f"; {tl.attrs['frequency_hz'] / 1000:g} kHz"
+    detail = geometry_text(zs, rx.range_m, rx.depth_m) + f"; {hz_text(tl.attrs['frequency_hz'])}"
     fig.suptitle(site_title(site, detail), fontweight="bold", fontsize=10.5)
     if path is None:
         return fig

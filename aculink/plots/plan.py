@@ -4,16 +4,28 @@ from __future__ import annotations
 
 import numpy as np
 
-from aculink.plots.style import (PALETTE, RATE_CMAP, SEABED_COLOUR, SOURCE_MARK, figure, geometry_text, save,
+from aculink.io.formats import ber_text
+from aculink.plots.style import (PALETTE, RATE_CMAP, SEABED_COLOUR, SOURCE_MARK, clip_to_water, figure, geometry_text, save,
                                  rate_axes, site_title, styled)
 
 
+def envelope_label(env_km_kbps, kind, ranges_km) -> str:
+    """The legend words of the fielded-system envelope, readable at a glance: what the line is,
+    one point on it a planner can check against the table, and the source key."""
+    at = float(np.median(ranges_km)) if np.size(ranges_km) else 1.0
+    at = float(f"{max(at, 1e-3):.2g}")
+    return (f"best reported for fielded modems: rate x range = {env_km_kbps:g} kbit/s x km\n"
+            f"({kind}; e.g. {env_km_kbps / at:.3g} kbit/s at {at:g} km) [KilfoyleBaggeroer2000]")
+
+
 @styled
-def plot_plan(ds, site, path):
+def plot_plan(ds, site, path=None, *, envelope=None):
     """Net bit rate against range for each receiver, with the fielded-system envelope.
 
     The envelope is the rate x range product reported for fielded coherent modems: about
     40 km kbit/s in shallow water and 100 km kbit/s in deep water, drawn as rate = E / range.
+    ``envelope`` is ``(E in km kbit/s, "shallow water" or "deep water")`` (default: from the
+    site's depth); ``site`` may then be just the site's name (a picture redrawn from a file).
 
     References
     ----------
@@ -34,19 +46,24 @@ def plot_plan(ds, site, path):
     best = ds["net_bit_rate_bps"].values / 1000.0
     ax.plot(r_km, np.where(best > 0, best, np.nan), color="#000000", lw=0.8, alpha=0.45,
             label="best of all receivers", zorder=0)
-    env, kind = envelope_km_kbps(site)
+    env, kind = envelope_km_kbps(site) if envelope is None else envelope
     rr = np.linspace(max(r_km.min(), 1e-3), r_km.max(), 200)
-    ax.plot(rr, env / rr, ls="--", color="#555555", lw=1.1,
-            label=f"fielded systems, {env:g} km kbit/s ({kind})")
-    none = r_km[np.nan_to_num(best) == 0]
+    ax.plot(rr, env / rr, ls="--", color="#555555", lw=1.1, label=envelope_label(env, kind, r_km))
+    none = r_km[best == 0]  # a row without a result (NaN) is not a row without a workable rate
     if none.size:
         ax.plot(none, np.full(none.size, np.nan), ls="", label=f"no workable rate at {none.size} range(s)")
     rate_axes(ax, r_km, np.concatenate([rates.values.ravel(), env / rr * 1000.0]), "workable net bit rate (kbit/s)")
-    geo = geometry_text(ds.attrs.get("source_depth_m"), None, None)
-    ax.set_title(site_title(site, f"{geo}, receiver {ds.attrs['receiver_depth_m']:g} m deep")
-                 + f"\nworkable at BER {ds.attrs['target_ber']:.0e} with {ds.attrs['margin_db']:g} dB margin")
+    geo = geometry_text(ds.attrs.get("source_depth_m"), None, ds.attrs["receiver_depth_m"])
+    ax.set_title(site_title(site, geo) + f"\n{workable_text(ds.attrs)}")
     ax.legend(title="receiver", loc="best", fontsize=7.5)
+    if path is None:
+        return fig
     return save(fig, path)
+
+
+def workable_text(attrs) -> str:
+    """``"workable at BER 1e-4 with 3 dB margin"`` from a result's attributes."""
+    return f"workable at BER {ber_text(attrs['target_ber'])} with {attrs['margin_db']:g} dB margin"
 
 
 #: Most panels along one extra sweep axis (source depth, wind) in a rate map; more are thinned evenly.
@@ -65,10 +82,15 @@ def _facet_label(dim, value):
     return f"{name} {value:g} {unit}".strip()
 
 
+def under_seabed(site, r_km, z):
+    """Cells (depth x range) whose receiver would sit at or below the seabed."""
+    bed_at_cells = np.asarray(site.seabed.depth_at(np.asarray(r_km) * 1000.0), dtype=float)
+    return np.asarray(z)[:, None] >= bed_at_cells[None, :]
+
+
 def _draw_map(ax, values, r_km, z, site, norm, cmap):
-    """One panel: the rate cells above the seabed, the seabed on top; returns the mesh."""
-    bed_at_cells = np.asarray(site.seabed.depth_at(r_km * 1000.0), dtype=float)
-    under = z[:, None] >= bed_at_cells[None, :]
+    """One panel: the rate cells in the water (clipped at the seabed), the seabed on top; returns the mesh."""
+    under = under_seabed(site, r_km, z)
     shown = np.where(values > 0, values, norm.vmin * 1e-3)
     shown = np.where(np.isfinite(values) & ~under, shown, np.nan)
     mesh = ax.pcolormesh(r_km, z, shown, cmap=cmap, shading="nearest", norm=norm)
@@ -77,6 +99,7 @@ def _draw_map(ax, values, r_km, z, site, norm, cmap):
     right = float(r_km.max()) + 0.5 * dr
     rr = np.linspace(0.0, right, 400)
     bed = np.asarray(site.seabed.depth_at(rr * 1000.0), dtype=float)
+    clip_to_water(mesh, ax, site, right)
     bottom = max(float(bed.max()), float(z.max()) + 0.5 * dz) * 1.08
     ax.fill_between(rr, bed, bottom, color=SEABED_COLOUR, zorder=3, lw=0)
     ax.plot(rr, bed, color="#6B5334", lw=1.0, zorder=4, label="seabed")
@@ -87,7 +110,7 @@ def _draw_map(ax, values, r_km, z, site, norm, cmap):
 
 
 @styled
-def plot_rate_map(ds, site, path):
+def plot_rate_map(ds, site, path=None):
     """Range x depth map of the best workable net bit rate, with the seabed drawn.
 
     With extra sweep axes (source depth, wind) one panel is drawn per value (rows: wind,
@@ -116,7 +139,10 @@ def plot_rate_map(ds, site, path):
     vmin = float(finite.min()) if finite.size else 0.1
     if vmin >= vmax:
         vmin = vmax / 10.0
-    none_workable = bool(np.any(np.nan_to_num(all_values, nan=1.0) == 0))
+    # the grey "none workable" end only for cells in the water (a cell under the seabed is no result)
+    in_water = ~under_seabed(site, r_km, z)
+    cells = rate.transpose(..., "depth", "range").values
+    none_workable = bool(np.any((cells == 0) & in_water))
     cmap = mpl.colormaps[RATE_CMAP].with_extremes(bad=(0.0, 0.0, 0.0, 0.0), under="#D9D9D9")
     norm = mpl.colors.LogNorm(vmin=vmin, vmax=vmax) if vmax / vmin > 20 else mpl.colors.Normalize(vmin, vmax)
     size = (min(4.6 + 3.6 * len(cols), 15.0), min(1.6 + 3.2 * len(rows), 11.0))
@@ -148,7 +174,7 @@ def plot_rate_map(ds, site, path):
     thinned = [d for d in extra if ds.sizes[d] > MAX_FACETS]
     bits = [geometry_text(src_fixed)] if src_fixed is not None and col_dim != "source_depth" else []
     title = site_title(site, ", ".join(bits))
-    title += f"\nworkable at BER {ds.attrs['target_ber']:.0e} with {ds.attrs['margin_db']:g} dB margin"
+    title += f"\n{workable_text(ds.attrs)}"
     if thinned:
         title += "; " + ", ".join(f"{MAX_FACETS} of {ds.sizes[d]} {_FACET_NAMES.get(d, (d,))[0]} values shown"
                                   for d in thinned)
@@ -157,4 +183,6 @@ def plot_rate_map(ds, site, path):
     if src_fixed is not None or col_dim == "source_depth":
         handles.append(plt.Line2D([], [], label="source", **{**SOURCE_MARK, "ms": 10}))
     fig.legend(handles=handles, loc="outside lower center", ncol=2, fontsize=8)
+    if path is None:
+        return fig
     return save(fig, path)

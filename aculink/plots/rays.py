@@ -20,7 +20,7 @@ from matplotlib.ticker import MaxNLocator
 from aculink.plots.style import (FIELD_CMAP, PALETTE, SEABED_COLOUR, WATER_COLOUR, equipment_labels, figure,
                                  geometry_text, mark_equipment, save, site_title, styled)
 
-__all__ = ["plot_rays", "SHADES", "DEFAULT_DYNAMIC_RANGE_DB", "ray_segments", "boundary_counts"]
+__all__ = ["plot_rays", "eigenray_paths", "SHADES", "DEFAULT_DYNAMIC_RANGE_DB", "ray_segments", "boundary_counts"]
 
 #: How rays can be shaded, with the colour-bar words of each.
 SHADES = {
@@ -226,3 +226,22 @@ def plot_rays(site, fan, path=None, *, shade="level", dynamic_range_db=DEFAULT_D
     if path is None:
         return fig
     return save(fig, path)
+
+
+def eigenray_paths(site, fan, dynamic_range_db=40.0):
+    """The eigenrays from the fan's source to the site's receiver, traced as paths to draw over the
+    fan (None when the receiver is beyond the fan or no eigenray reaches it)."""
+    import numpy as np
+
+    from aculink.propagation import find_arrivals, trace_rays
+
+    zs = float(fan.attrs["source_depth_m"])
+    rx = site.receiver
+    if rx.range_m > float(fan.attrs["max_range_m"]):
+        return None
+    arr = find_arrivals(site, rx.range_m, rx.depth_m, source_depth_m=zs, dynamic_range_db=dynamic_range_db)
+    angles = arr.launch_angle_deg.values.ravel()
+    angles = angles[np.isfinite(angles)]
+    if angles.size == 0:
+        return None
+    return trace_rays(site, source_depth_m=zs, angles_deg=angles, max_range_m=rx.range_m)

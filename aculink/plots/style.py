@@ -15,6 +15,8 @@ matplotlib.use("Agg")  # files only; no screen is assumed
 import matplotlib.pyplot as plt  # noqa: E402
 
 from aculink.io.atomic import atomic_path  # noqa: E402
+from aculink.io.formats import depth_text, range_text  # noqa: E402
+from aculink.io.reports import geometry_text  # noqa: E402,F401  (the one geometry wording, for titles)
 
 #: Okabe and Ito (2008), "Color Universal Design": distinguishable with every common colour-vision deficiency.
 PALETTE = ("#0072B2", "#D55E00", "#009E73", "#CC79A7", "#E69F00", "#56B4E9", "#F0E442", "#000000")
@@ -75,16 +77,17 @@ def site_title(site, detail: str = "") -> str:
     return f"{name} - {detail}" if detail else name
 
 
-def geometry_text(source_depth_m=None, range_m=None, receiver_depth_m=None) -> str:
-    """A short geometry description for titles."""
-    parts = []
-    if source_depth_m is not None:
-        parts.append(f"source {source_depth_m:g} m deep")
-    if range_m is not None and receiver_depth_m is not None:
-        parts.append(f"receiver at {range_m / 1000:g} km, {receiver_depth_m:g} m deep")
-    elif range_m is not None:
-        parts.append(f"range {range_m / 1000:g} km")
-    return ", ".join(parts)
+def clip_to_water(artist, ax, site, right_km):
+    """Cut a range x depth shading (cells of a grid) at the seabed line, from range 0 to ``right_km``:
+    a cell centred in the water reaches half a step down, and must not be drawn over the seabed."""
+    from matplotlib.patches import Polygon
+
+    rr = np.linspace(0.0, float(right_km), 400)
+    bed = np.asarray(site.seabed.depth_at(rr * 1000.0), dtype=float)
+    water = Polygon(np.column_stack([np.r_[rr, rr[::-1]], np.r_[bed, np.full(rr.size, -1e6)]]), closed=True,
+                    transform=ax.transData)
+    artist.set_clip_path(water)
+    return artist
 
 
 def mark_equipment(ax, source, receiver=None, *, source_label=None, receiver_label=None):
@@ -106,10 +109,10 @@ def mark_equipment(ax, source, receiver=None, *, source_label=None, receiver_lab
 
 def equipment_labels(source_depth_m, receiver_range_m=None, receiver_depth_m=None):
     """The legend words for the source and the receiver, the same in every picture."""
-    src = f"source {source_depth_m:g} m deep"
+    src = f"source {depth_text(source_depth_m)} m deep"
     if receiver_range_m is None:
         return src, None
-    return src, f"receiver at {receiver_range_m / 1000:g} km, {receiver_depth_m:g} m deep"
+    return src, f"receiver at {range_text(receiver_range_m)}, {depth_text(receiver_depth_m)} m deep"
 
 
 def rate_axes(ax, range_km, rates_bps, ylabel):

@@ -328,14 +328,6 @@ def summarize_site(site) -> dict:
     }
 
 
-def _fmt(value, unit="", nd=None):
-    if value is None:
-        return "none"
-    if isinstance(value, float) and nd is not None:
-        value = f"{value:.{nd}f}"
-    return f"{value:g} {unit}".strip() if isinstance(value, (int, float)) else f"{value} {unit}".strip()
-
-
 def _loss_text(db) -> str:
     """A loss in dB for the text table; beyond 60 dB the exact figure means nothing in practice."""
     if db is None or db > 60.0:
@@ -344,7 +336,10 @@ def _loss_text(db) -> str:
 
 
 def format_summary(summary: dict) -> str:
-    """Render :func:`summarize_site`'s dict as readable text, one fact a line."""
+    """Render :func:`summarize_site`'s dict as readable text, one fact a line (numbers to the digits
+    :mod:`aculink.io.formats` allows)."""
+    from aculink.io.formats import ber_text, depth_text, range_text, sig
+
     s = summary
     w, b, f, a, n, g, m = (s[k] for k in ("water", "seabed", "surface", "absorption", "noise",
                                           "geometry", "modem"))
@@ -361,21 +356,22 @@ def format_summary(summary: dict) -> str:
         f"(surface {w['surface_speed_mps']:.2f}, seabed {w['bottom_speed_mps']:.2f}; from {w['profile_source']}, "
         f"{w['profile_nodes']} nodes)")
     row("profile", w["regime"])
-    row("surface duct (mixed layer) depth", _fmt(w["surface_duct_depth_m"], "m"))
+    duct = w["surface_duct_depth_m"]
+    row("surface duct (mixed layer) depth", "none" if duct is None else f"{depth_text(duct)} m")
     axis = w["channel_axis_depth_m"]
-    row("sound-channel axis", "none" if axis is None else f"{axis:g} m ({w['channel_axis_speed_mps']:.2f} m/s)")
+    row("sound-channel axis", "none" if axis is None else f"{depth_text(axis)} m ({w['channel_axis_speed_mps']:.2f} m/s)")
     if axis is not None:
         crit = w["critical_depth_m"]
         row("critical depth", "not reached by the water" if crit is None
-            else f"{crit:g} m (depth excess {w['depth_excess_m']:g} m)")
+            else f"{depth_text(crit)} m (depth excess {depth_text(w['depth_excess_m'])} m)")
     row("pH, latitude", f"{w['ph']:g}, {w['latitude_deg']:g} deg")
 
     lines.append("")
     lines.append("Seabed")
     row("type", f"{b['sediment']}: {b['sound_speed_mps']:g} m/s, {b['density_kgm3']:g} kg/m^3, "
         f"{b['attenuation_db_per_wavelength']:g} dB/wavelength")
-    row("depth", f"{b['depth_min_m']:g} to {b['depth_max_m']:g} m along the track" if b["sloping"]
-        else f"{b['depth_max_m']:g} m (flat)")
+    row("depth", f"{depth_text(b['depth_min_m'])} to {depth_text(b['depth_max_m'])} m along the track"
+        if b["sloping"] else f"{depth_text(b['depth_max_m'])} m (flat)")
     crit = b["critical_grazing_angle_deg"]
     row("critical grazing angle", "none (seabed slower than the water)" if crit is None else f"{crit:g} deg")
     if b["intromission_grazing_angle_deg"] is not None:
@@ -386,7 +382,7 @@ def format_summary(summary: dict) -> str:
 
     lines.append("")
     lines.append("Surface")
-    row("wind at 10 m, rms wave height", f"{f['wind_speed_mps']:g} m/s, {f['rms_wave_height_m']:g} m")
+    row("wind at 10 m, rms wave height", f"{f['wind_speed_mps']:g} m/s, {sig(f['rms_wave_height_m'], 2)} m")
     row("coherent loss at carrier (dB)", "  ".join(
         f"{ang:g} deg: {_loss_text(v)}" for ang, v in zip(f["coherent_loss_grazing_deg"], f["coherent_loss_db"])))
 
@@ -406,14 +402,14 @@ def format_summary(summary: dict) -> str:
 
     lines.append("")
     lines.append("Equipment and geometry")
-    row("source", f"{g['source_depth_m']:g} m deep, {g['source_level_db_re_1upa_at_1m']:g} dB re 1 uPa at 1 m, "
+    row("source", f"{depth_text(g['source_depth_m'])} m deep, {g['source_level_db_re_1upa_at_1m']:g} dB re 1 uPa at 1 m, "
         f"DI {g['source_directivity_index_db']:g} dB, speed {g['source_speed_mps']:g} m/s")
-    row("receiver", f"{g['receiver_range_m'] / 1e3:g} km, {g['receiver_depth_m']:g} m deep "
-        f"(seabed {g['seabed_depth_at_receiver_m']:g} m), DI {g['receiver_directivity_index_db']:g} dB, "
+    row("receiver", f"{range_text(g['receiver_range_m'])}, {depth_text(g['receiver_depth_m'])} m deep "
+        f"(seabed {depth_text(g['seabed_depth_at_receiver_m'])} m), DI {g['receiver_directivity_index_db']:g} dB, "
         f"speed {g['receiver_speed_mps']:g} m/s")
     row("modem band", f"carrier {m['carrier_hz'] / 1e3:g} kHz, bandwidth {m['bandwidth_hz'] / 1e3:g} kHz, "
         f"rolloff {m['rolloff']:g} (up to {m['max_symbol_rate_baud']:g} baud)")
-    row("targets", f"BER {m['target_ber']:g}, margin {m['margin_db']:g} dB")
+    row("targets", f"BER {ber_text(m['target_ber'])}, margin {m['margin_db']:g} dB")
 
     if s["warnings"]:
         lines.append("")

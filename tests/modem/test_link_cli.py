@@ -21,7 +21,7 @@ def _tap_file(tmp_path, taps, rate):
 
 def test_cli_json_fields_over_channel_file(tmp_path, capsys):
     """Issue contract: --json prints one object with ber, ber_low, ber_high, bit_errors, bits,
-    snr_in_db, snr_out_db, snr_predicted_db, net_bit_rate_bps; BER inside its own interval and
+    snr_band_db, snr_out_measured_db, snr_out_predicted_db, net_bit_rate_bps; BER inside its own interval and
     the measured SNR within 1.5 dB of the prediction on a static tap channel (Al-Dhahir and
     Cioffi 1995 design, plus RLS misadjustment)."""
     f = _tap_file(tmp_path, [1.0, 0.0, 0.45j, -0.2], 2000)
@@ -29,12 +29,12 @@ def test_cli_json_fields_over_channel_file(tmp_path, capsys):
                  "--snr-db", "20", "--symbols", "4000", "--json"])
     assert code == 0
     rep = json.loads(capsys.readouterr().out)
-    for key in ("ber", "ber_low", "ber_high", "bit_errors", "bits", "snr_in_db", "snr_out_db",
-                "snr_predicted_db", "net_bit_rate_bps", "caution"):
+    for key in ("ber", "ber_low", "ber_high", "bit_errors", "bits", "snr_band_db", "snr_out_measured_db",
+                "snr_out_predicted_db", "net_bit_rate_bps", "caution"):
         assert key in rep
     assert rep["ber_low"] <= rep["ber"] <= rep["ber_high"]
-    assert rep["snr_in_db"] == 20
-    assert rep["snr_out_db"] == pytest.approx(rep["snr_predicted_db"], abs=1.5)
+    assert rep["snr_band_db"] == 20
+    assert rep["snr_out_measured_db"] == pytest.approx(rep["snr_out_predicted_db"], abs=1.5)
     assert 0 < rep["net_bit_rate_bps"] < 2 * 2000
 
 
@@ -45,7 +45,7 @@ def test_cli_bad_input_exit_2(tmp_path, capsys):
     err = capsys.readouterr().err
     assert code == 2 and "did you mean 'dfe'" in err and err.count("\n") == 1
     code = main(["link", "--channel-file", str(f), "--rate-baud", "5000", "--snr-db", "20"])
-    assert code == 2 and "allowed range is (0, 4800] Bd" in capsys.readouterr().err
+    assert code == 2 and "allowed range is [18.75, 4800] Bd" in capsys.readouterr().err
 
 
 def test_cli_plot(tmp_path, capsys):

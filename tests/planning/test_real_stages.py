@@ -119,11 +119,11 @@ def test_cli_plan_table_json_csv_plot(capsys, tmp_path):
     assert code == 0
     doc = json.loads(out)
     keys = {"range_m", "net_bit_rate_bps", "modulation", "symbol_rate_baud", "receiver", "snr_band_db",
-            "snr_out_db", "ber_predicted", "margin_db", "spread_90_s", "tl_db"}
+            "snr_out_predicted_db", "ber_predicted", "margin_db", "spread_90_s", "tl_db"}
     assert [r["range_m"] for r in doc["rows"]] == [1000.0, 2000.0, 3000.0]
     assert all(keys <= set(r) for r in doc["rows"]) and "caution" in doc
     code, out, _ = run_cli(capsys, *args, "--csv", tmp_path / "t.csv", "--plot", tmp_path / "t.png")
-    assert code == 0 and "caution:" in out and "planning estimate" in out.lower()
+    assert code == 0 and "Caution:" in out and "planning estimate" in out.lower()
     lines = [l for l in out.splitlines() if l.strip()[:1].isdigit()]
     assert len(lines) == 3 and len({len(l) for l in lines}) == 1
     assert (tmp_path / "t.csv").read_text().splitlines()[0].startswith("range_m,net_bit_rate_bps")
@@ -148,7 +148,7 @@ def test_cli_sweep_writes_netcdf_and_map(capsys, tmp_path):
     args = ("sweep", SITE_FILE, "--ranges-m", "1000,2000", "--depths-m", "20,60", "--receiver", "dfe",
             "-o", out, "--workers", "0", "--quiet")
     code, text, _ = run_cli(capsys, *args, "--plot", tmp_path / "g.png")
-    assert code == 0 and "caution:" in text
+    assert code == 0 and "Caution:" in text
     ds = xr.open_dataset(out)
     assert ds["net_bit_rate_bps"].dims == ("range", "depth") and "site_text" in ds.attrs
     assert "Isovelocity test shelf" in ds.attrs["site_text"]

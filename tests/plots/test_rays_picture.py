@@ -58,10 +58,10 @@ def test_each_shade_has_its_colour_bar(shelf, shade, tmp_path):
 
 def test_eigenrays_drawn_on_top(shelf):
     """Eigenrays to the receiver get one highlight style and a legend entry with their count (contract)."""
-    from aculink.cli.rays import eigenray_fan
+    from aculink.plots.rays import eigenray_paths
 
     site, fan = shelf
-    eig = eigenray_fan(site, fan, 30.0)
+    eig = eigenray_paths(site, fan, 30.0)
     assert eig is not None and eig.sizes["ray"] >= 1
     fig = plot_rays(site, fan, eigenrays=eig)
     assert f"eigenrays to the receiver ({eig.sizes['ray']})" in _legend_texts(fig)

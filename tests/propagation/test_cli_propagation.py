@@ -16,7 +16,7 @@ def test_arrivals_json_fields(capsys):
     """`aculink arrivals --json` prints one object with the documented fields (DEVELOPERS.md)."""
     assert main(["arrivals", str(ENV / "shelf_summer.toml"), "--json"]) == 0
     out = json.loads(capsys.readouterr().out)
-    for key in ("source_depth_m", "range_m", "depth_m", "frequency_hz", "arrivals", "n_dropped", "reason"):
+    for key in ("source_depth_m", "receiver_range_m", "receiver_depth_m", "frequency_hz", "arrivals", "n_dropped", "reason"):
         assert key in out
     assert out["arrivals"], "the bundled shelf has arrivals at its receiver"
     first = out["arrivals"][0]
@@ -97,7 +97,7 @@ def test_loss_netcdf_output_is_labelled_and_not_overwritten(tmp_path, capsys):
     out = tmp_path / "tl.nc"
     argv = ["loss", str(ENV / "shelf_summer.toml"), *LOSS_GRID, "--angles-deg", "-60:60:601", "-o", str(out)]
     assert main(argv) == 0
-    assert "Grid written to" in capsys.readouterr().out
+    assert f"wrote {out}" in capsys.readouterr().out
     with xr.open_dataset(out) as ds:
         assert ds.tl_coherent_db.dims == ("range", "depth") and ds.tl_coherent_db.shape == (6, 6)
         assert ds.tl_incoherent_db.attrs["units"] == "dB re 1 m"
