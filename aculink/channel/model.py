@@ -64,6 +64,15 @@ def _check_band(carrier_hz, bandwidth_hz):
     return fc, b
 
 
+def _bed_critical_grazing_rad(site):
+    """The seabed's critical grazing angle at the deepest water, rad; None for a bed slower than the water."""
+    from aculink.site.seabed import critical_grazing_angle_rad
+
+    c_w = float(site.water.profile.speed(np.array([site.seabed.max_depth_m]))[0])
+    theta = float(critical_grazing_angle_rad(c_w, float(site.seabed.sound_speed_mps)))
+    return None if not np.isfinite(theta) else theta
+
+
 @dataclass(frozen=True, eq=False)
 class Channel:
     """Sparse multipath channel over a modem band (see the module docstring).
@@ -261,7 +270,7 @@ class Channel:
             geometry={"source_depth_m": float(site.source.depth_m), "range_m": r,
                       "receiver_depth_m": z},
             reason=reason,
-        ), sound_speed_mps=c_mean)
+        ), sound_speed_mps=c_mean, keep_grazing_rad=_bed_critical_grazing_rad(site))
 
     # ------------------------------------------------------------------ basic properties
     @property

@@ -168,7 +168,58 @@ def cluster_excess_delays(sin2_sum, n_bounces, path_length_m, gamma2, mss, sound
     return (2.0 * l_h * n_scatter / sound_speed_mps)[:, None] * (beta2 + cross[:, None])
 
 
-def add_surface_scatter(channel, *, n_sub=SUBPATHS, sound_speed_mps=None):
+def kept_fraction(sin2_one, mss, keep_grazing_rad):
+    """Share of the energy scattered at one bounce that leaves below ``keep_grazing_rad``.
+
+    A facet tilted by beta in the vertical plane sends the reflection out at grazing angle
+    theta + 2 beta; beta is the Cox-Munk in-plane tilt (rms ``sqrt(mss / 2)``) truncated to
+    ``|beta| < theta`` as in :func:`cluster_excess_delays`. Energy sent steeper than the seabed's
+    critical grazing angle leaves the waveguide through the bed within a few bounces, so it does not
+    reach the receiver (our modelling choice; the critical angle from Snell's law [Jensen2011]).
+
+    Parameters
+    ----------
+    sin2_one : (P,) sin^2 of one bounce's grazing angle.
+    mss : float
+        Mean-square slope (both directions).
+    keep_grazing_rad : float or None
+        The seabed's critical grazing angle; None (no critical angle) keeps everything.
+
+    Returns
+    -------
+    (P,) ndarray in [0, 1].
+    """
+    sin2_one = np.asarray(sin2_one, dtype=float)
+    if keep_grazing_rad is None:
+        return np.ones_like(sin2_one)
+    theta = np.arcsin(np.sqrt(np.clip(sin2_one, 0.0, 1.0)))
+    s_dir = math.sqrt(mss / 2.0)
+    top = np.minimum((keep_grazing_rad - theta) / 2.0, theta)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        kept = (special.ndtr(top / s_dir) - special.ndtr(-theta / s_dir)) / (
+            special.ndtr(theta / s_dir) - special.ndtr(-theta / s_dir))
+    return np.clip(np.nan_to_num(kept, nan=1.0), 0.0, 1.0)
+
+
+def arriving_scattered_fraction(gamma2, n_bounces, kept):
+    """Share of a path's incident energy that arrives scattered, over its ``n`` bounces.
+
+    At each bounce the coherent share ``exp(-Gamma^2 / n)`` goes on specularly and the scattered
+    rest goes on at the rate ``kept`` (:func:`kept_fraction`), so the energy that arrives is
+    ``(exp(-Gamma^2/n) + (1 - exp(-Gamma^2/n)) kept)^n`` of the incident, of which ``exp(-Gamma^2)``
+    is coherent. With ``kept = 1`` this is ``1 - exp(-Gamma^2)`` [Eckart1953] (nothing lost).
+    """
+    g2 = np.asarray(gamma2, dtype=float)
+    n = np.maximum(np.asarray(n_bounces, dtype=float), 1.0)
+    kept = np.asarray(kept, dtype=float)
+    if g2.ndim == 2:
+        n, kept = n[:, None], kept[:, None]
+    per = np.exp(-g2 / n)
+    total = np.exp(n * np.log(per + (1.0 - per) * kept))
+    return np.clip(total - np.exp(-g2), 0.0, 1.0)
+
+
+def add_surface_scatter(channel, *, n_sub=SUBPATHS, sound_speed_mps=None, keep_grazing_rad=None):
     """The channel with a diffuse cluster added around every surface-interacting path.
 
     Parameters
@@ -182,6 +233,9 @@ def add_surface_scatter(channel, *, n_sub=SUBPATHS, sound_speed_mps=None):
         Sub-paths per cluster.
     sound_speed_mps : float, optional
         Mean sound speed for the path lengths ``L = c tau`` (default the surface value).
+    keep_grazing_rad : float, optional
+        The seabed's critical grazing angle: energy scattered steeper than it is lost
+        (:func:`arriving_scattered_fraction`). None keeps all of it (coherent + scattered = incident).
 
     Returns
     -------
@@ -210,12 +264,17 @@ def add_surface_scatter(channel, *, n_sub=SUBPATHS, sound_speed_mps=None):
     with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
         incident = np.where(chi > 0, channel.gain[parents] / np.where(chi > 0, chi, 1.0), 0.0)
     incident = np.where(np.isfinite(incident), incident, 0.0)
-    amp = np.sqrt(frac[parents] / n_sub) * incident                # (Q, F) per sub-path
+    mss = float(mean_square_slope(motion.wind_speed_mps))
+    n_b = np.maximum(channel.surface_bounces[parents], 1)
+    kept = kept_fraction(sin2[parents] / n_b, mss, keep_grazing_rad)
+    arriving = frac[parents] if keep_grazing_rad is None else arriving_scattered_fraction(
+        gamma2_f[parents], n_b, kept)
+    amp = np.sqrt(arriving / n_sub) * incident                     # (Q, F) per sub-path
     gamma2_c = surface_phase_std(sin2[parents], channel.carrier_hz, motion) ** 2
     c_mean = c_top if sound_speed_mps is None else float(sound_speed_mps)
     excess = cluster_excess_delays(sin2[parents], channel.surface_bounces[parents],
                                    c_mean * channel.delay_s[parents], gamma2_c,
-                                   float(mean_square_slope(motion.wind_speed_mps)), c_mean, n_sub)
+                                   mss, c_mean, n_sub)
     q = parents.size
     phase = np.exp(1j * _GOLDEN_ANGLE * np.arange(1, q * n_sub + 1)).reshape(q, n_sub)
     new_gain = (amp[:, None, :] * phase[:, :, None]).reshape(q * n_sub, -1)
@@ -248,5 +307,5 @@ def surface_power_budget(channel, freq_hz=None):
     return float(np.sum(p[surf & ~channel.scattered])), float(np.sum(p[channel.scattered]))
 
 
-__all__ = ["add_surface_scatter", "cluster_excess_delays", "mean_square_slope", "scattered_fraction",
+__all__ = ["add_surface_scatter", "kept_fraction", "arriving_scattered_fraction", "cluster_excess_delays", "mean_square_slope", "scattered_fraction",
            "scattered_doppler_spread_hz", "tilt_bin_moments", "surface_power_budget", "SUBPATHS"]

@@ -48,7 +48,7 @@ def test_coherent_plus_scattered_equals_incident(shelf_site, wind):
     dropped here)."""
     site = _windy(shelf_site, wind)
     smooth, rough = _rough_arrivals(site)
-    ch = Channel.from_arrivals(rough, site)
+    ch = _conserving(rough, site)
     ref = Channel.from_arrivals(smooth, site.replace(surface=Surface(0.0, 0.0)))
     assert ch.scattered.sum() == SUBPATHS * int(np.sum(ref.surface_bounces > 0))
     inc = np.abs(ref.gain) ** 2                                   # smooth = incident
@@ -62,16 +62,58 @@ def test_coherent_plus_scattered_equals_incident(shelf_site, wind):
     assert link_budget(site, ch).tl_db == pytest.approx(link_budget(site, ref).tl_db, abs=0.01)
 
 
-def test_tl_continuous_in_wind(shelf_site):
-    """Incoherent TL over winds 0-8 m/s changes by less than 0.01 dB when no path is dropped
-    (energy conservation above; before the scattered component it fell by tens of dB)."""
+def _conserving(rough, site):
+    """The channel of ``rough`` with every scattered joule kept (no critical-angle loss)."""
+    import dataclasses
+
+    calm = Channel.from_arrivals(rough, site.replace(surface=Surface(0.0, 0.0)))
+    motion = Channel.from_arrivals(rough, site).surface
+    return add_surface_scatter(dataclasses.replace(calm, surface=motion),
+                               sound_speed_mps=float(np.mean(site.water.profile.speed(np.linspace(0, 100, 16)))))
+
+
+def _tl_over_wind(shelf_site, build):
     tls = []
     for wind in (0.0, 0.5, 2.0, 5.0, 8.0):
         site = _windy(shelf_site, wind) if wind else shelf_site.replace(surface=Surface(0.0, 0.0)).with_geometry(
             range_m=2000.0, depth_m=60.0)
         _, rough = _rough_arrivals(site)
-        tls.append(link_budget(site, Channel.from_arrivals(rough, site)).tl_db)
-    assert np.ptp(tls) < 0.01
+        tls.append(link_budget(site, build(rough, site)).tl_db)
+    return np.array(tls)
+
+
+def test_tl_continuous_in_wind(shelf_site):
+    """Incoherent TL over winds 0-8 m/s changes by less than 0.01 dB when every scattered joule
+    is kept (energy conservation above; before the scattered component it fell by tens of dB);
+    with the energy scattered past the bed's critical angle lost, TL grows with the wind, smoothly
+    and by less than the whole scattered share (a bound from the Eckart factor alone)."""
+    kept = _tl_over_wind(shelf_site, _conserving)
+    assert np.ptp(kept) < 0.01
+    lossy = _tl_over_wind(shelf_site, Channel.from_arrivals)
+    coherent_only = _tl_over_wind(shelf_site, lambda rough, site: Channel.from_arrivals(
+        rough, site).subset(~Channel.from_arrivals(rough, site).scattered))
+    assert np.all(np.diff(lossy) >= -1e-9) and lossy[-1] - lossy[0] > 0.05
+    assert np.all(lossy <= coherent_only + 1e-9)
+
+
+def test_kept_fraction_against_scipy_truncnorm():
+    """The share of a bounce's scattered energy sent below the critical grazing angle is
+    P(theta + 2 beta < theta_c) for beta ~ N(0, mss / 2) truncated to |beta| < theta
+    (scipy.stats.truncnorm); 1 without a critical angle; the per-path share with kept = 1 is
+    1 - exp(-Gamma^2) and with kept = 0 nothing (Eckart 1953, closed forms)."""
+    from aculink.channel.scatter import arriving_scattered_fraction, kept_fraction
+
+    mss, theta_c = 0.02, np.radians(25.0)
+    theta = np.radians([2.0, 10.0, 20.0, 30.0])
+    s = np.sqrt(mss / 2)
+    want = stats.truncnorm(-theta / s, theta / s, scale=s).cdf((theta_c - theta) / 2)
+    got = kept_fraction(np.sin(theta) ** 2, mss, theta_c)
+    np.testing.assert_allclose(got, want, atol=1e-12)
+    np.testing.assert_array_equal(kept_fraction(np.sin(theta) ** 2, mss, None), 1.0)
+    g2 = np.array([0.1, 1.0, 5.0])
+    n = np.array([1, 3, 7])
+    np.testing.assert_allclose(arriving_scattered_fraction(g2, n, np.ones(3)), -np.expm1(-g2), rtol=1e-12)
+    np.testing.assert_allclose(arriving_scattered_fraction(g2, n, np.zeros(3)), 0.0, atol=1e-15)
 
 
 def test_calm_sea_gives_the_coherent_channel(shelf_site):
