@@ -252,6 +252,45 @@ def _copy(src, dst):
         dst[j] = src[j]
 
 
+@njit(cache=True, error_model="numpy", inline="always")
+def _watch(t, n_train, e2, p2, mon, rand_mse, wr, wi, snap_wr, snap_wi, snap, theta, integ, k2, recoveries,
+           gave_up):
+    """The divergence monitor's step shared by every loop: on a healthy symbol keep the taps and
+    the loop state, on a diverging one restore them (or give up after ``MAX_RECOVERIES``).
+    Returns ``(theta, integ, recoveries, gave_up, event)`` with event 0 = nothing, 1 = snapshot
+    taken (the RLS loop then keeps its matrix too), 2 = restored."""
+    if gave_up >= 0:
+        return theta, integ, recoveries, gave_up, 0
+    code = _monitor(t, n_train, e2, p2, mon, rand_mse, wr, wi)
+    if code == 1:
+        _copy(wr, snap_wr)
+        _copy(wi, snap_wi)
+        _save_loop(snap, theta, integ, t)
+        return theta, integ, recoveries, gave_up, 1
+    if code == 2:
+        if recoveries >= MAX_RECOVERIES:
+            return theta, integ, recoveries, t, 0
+        _copy(snap_wr, wr)
+        _copy(snap_wi, wi)
+        theta, integ = _restore_loop(snap, mon, k2, t)
+        return theta, integ, recoveries + 1, gave_up, 2
+    return theta, integ, recoveries, gave_up, 0
+
+
+@njit(cache=True, error_model="numpy", inline="always")
+def _matvec(pr, pim, vr, vi, outr, outi):
+    """``out = P v`` for complex P and v held as real and imaginary parts."""
+    n = vr.size
+    for i in range(n):
+        accr = 0.0
+        acci = 0.0
+        for j in range(n):
+            accr += pr[i, j] * vr[j] - pim[i, j] * vi[j]
+            acci += pr[i, j] * vi[j] + pim[i, j] * vr[j]
+        outr[i] = accr
+        outi[i] = acci
+
+
 @njit(cache=True, error_model="numpy", fastmath=_FLAGS)
 def rls_dfe(yr, yi, start0, stride, n_sym, n_ff, fb_delays, train, n_train, pts_r, pts_i,
             lam, delta, k1, k2, pll_start, theta0, out_zr, out_zi, out_dec, out_err2, out_theta, wr, wi, info):
@@ -326,39 +365,19 @@ def rls_dfe(yr, yi, start0, stride, n_sym, n_ff, fb_delays, train, n_train, pts_
             wr[j] += kr * er + ki * ei
             wi[j] += ki * er - kr * ei
         theta, integ, power = _pll_step(theta, integ, power, ffr, ffi, dr - fbr, di - fbi, k1, k2, t >= pll_start)
-        restored = False
-        snap_p = False
-        if gave_up < 0:
-            code = _monitor(t, n_train, er * er + ei * ei, ffr * ffr + ffi * ffi, mon, rand_mse, wr, wi)
-            if code == 1:
-                _copy(wr, snap_wr)
-                _copy(wi, snap_wi)
-                snap_p = True  # P is copied once this symbol's update of it is done
-                _save_loop(snap, theta, integ, t)
-            elif code == 2:
-                if recoveries >= MAX_RECOVERIES:
-                    gave_up = t
-                else:
-                    recoveries += 1
-                    _copy(snap_wr, wr)
-                    _copy(snap_wi, wi)
-                    pr[:, :] = snap_pr
-                    pim[:, :] = snap_pi
-                    theta, integ = _restore_loop(snap, mon, k2, t)
-                    restored = True
+        theta, integ, recoveries, gave_up, event = _watch(t, n_train, er * er + ei * ei, ffr * ffr + ffi * ffi,
+                                                          mon, rand_mse, wr, wi, snap_wr, snap_wi, snap, theta,
+                                                          integ, k2, recoveries, gave_up)
+        snap_p = event == 1  # P is copied once this symbol's update of it is done
+        if event == 2:
+            pr[:, :] = snap_pr
+            pim[:, :] = snap_pi
         if t + 1 == n_sym:
             break
         _build_regressor(vr, vi, yr, yi, start0 + (t + 1) * stride, n_ff, np.cos(theta), np.sin(theta),
                          dec_r, dec_i, t + 1, fb_delays)
-        if restored:
-            for i in range(n):
-                accr = 0.0
-                acci = 0.0
-                for j in range(n):
-                    accr += pr[i, j] * vr[j] - pim[i, j] * vi[j]
-                    acci += pr[i, j] * vi[j] + pim[i, j] * vr[j]
-                qr[i] = accr
-                qi[i] = acci
+        if event == 2:
+            _matvec(pr, pim, vr, vi, qr, qi)
             continue
         # fused: P <- (P - pi pi^H / gamma) / lambda, and P v_next, in one pass over P
         for i in range(n):
@@ -394,14 +413,7 @@ def rls_dfe(yr, yi, start0, stride, n_sym, n_ff, fb_delays, train, n_train, pts_
                     for j in range(n):
                         pr[i, j] *= s
                         pim[i, j] *= s
-            for i in range(n):
-                accr = 0.0
-                acci = 0.0
-                for j in range(n):
-                    accr += pr[i, j] * vr[j] - pim[i, j] * vi[j]
-                    acci += pr[i, j] * vi[j] + pim[i, j] * vr[j]
-                nqr[i] = accr
-                nqi[i] = acci
+            _matvec(pr, pim, vr, vi, nqr, nqi)
         _copy(nqr, qr)
         _copy(nqi, qi)
         if snap_p:
@@ -450,20 +462,9 @@ def nlms_dfe(yr, yi, start0, stride, n_sym, n_ff, fb_delays, train, n_train, pts
             wr[j] += s * (vr[j] * er + vi[j] * ei)
             wi[j] += s * (vi[j] * er - vr[j] * ei)
         theta, integ, power = _pll_step(theta, integ, power, ffr, ffi, dr - fbr, di - fbi, k1, k2, t >= pll_start)
-        if gave_up < 0:
-            code = _monitor(t, n_train, er * er + ei * ei, ffr * ffr + ffi * ffi, mon, rand_mse, wr, wi)
-            if code == 1:
-                _copy(wr, snap_wr)
-                _copy(wi, snap_wi)
-                _save_loop(snap, theta, integ, t)
-            elif code == 2:
-                if recoveries >= MAX_RECOVERIES:
-                    gave_up = t
-                else:
-                    recoveries += 1
-                    _copy(snap_wr, wr)
-                    _copy(snap_wi, wi)
-                    theta, integ = _restore_loop(snap, mon, k2, t)
+        theta, integ, recoveries, gave_up, _ = _watch(t, n_train, er * er + ei * ei, ffr * ffr + ffi * ffi, mon,
+                                                      rand_mse, wr, wi, snap_wr, snap_wi, snap, theta, integ, k2,
+                                                      recoveries, gave_up)
     info[0] = 0
     info[1] = recoveries
     info[2] = gave_up
@@ -484,6 +485,8 @@ def fixed_dfe(yr, yi, start0, stride, n_sym, n_ff, fb_delays, train, n_train, pt
     vi = np.zeros(n)
     dec_r = np.zeros(n_sym)
     dec_i = np.zeros(n_sym)
+    snap_wr = wr.copy()  # the taps are fixed: the shared monitor step copies them back unchanged
+    snap_wi = wi.copy()
     snap = np.zeros(3)
     theta = theta0
     integ = 0.0
@@ -507,16 +510,9 @@ def fixed_dfe(yr, yi, start0, stride, n_sym, n_ff, fb_delays, train, n_train, pt
         dr, di, er, ei = _decide_and_record(t, zr, zi, theta, n_train, train, pts_r, pts_i,
                                             out_zr, out_zi, out_dec, out_err2, out_theta, dec_r, dec_i)
         theta, integ, power = _pll_step(theta, integ, power, ffr, ffi, dr - fbr, di - fbi, k1, k2, t >= pll_start)
-        if gave_up < 0:
-            code = _monitor(t, n_train, er * er + ei * ei, ffr * ffr + ffi * ffi, mon, rand_mse, wr, wi)
-            if code == 1:
-                _save_loop(snap, theta, integ, t)
-            elif code == 2:
-                if recoveries >= MAX_RECOVERIES:
-                    gave_up = t
-                else:
-                    recoveries += 1
-                    theta, integ = _restore_loop(snap, mon, k2, t)
+        theta, integ, recoveries, gave_up, _ = _watch(t, n_train, er * er + ei * ei, ffr * ffr + ffi * ffi, mon,
+                                                      rand_mse, wr, wi, snap_wr, snap_wi, snap, theta, integ, k2,
+                                                      recoveries, gave_up)
     info[0] = 0
     info[1] = recoveries
     info[2] = gave_up

@@ -464,6 +464,8 @@ def error_propagation(fb_gains, snr: float, modulation: str) -> tuple[float, flo
     m = float(np.sum(e))
     if m <= 0.0:
         return 1.0, 0.0
-    cap = _burst_base(const) ** (m / float(e.max()))
+    # base^n_eff in logs: with hundreds of taking-part taps the power overflows a float (the
+    # cap is then no cap at all)
+    cap = math.exp(min(math.log(_burst_base(const)) * m / float(e.max()), 700.0))
     factor = 1.0 / (1.0 - m) if m < 1.0 else math.inf
     return float(min(factor, cap)), m

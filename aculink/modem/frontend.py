@@ -20,6 +20,14 @@ must be alike (correlation coefficient at least ``ENVELOPE_MIN_CORRELATION``), t
 must lie inside the bound (not on its edge) and the scale must exceed ``DOPPLER_SIGNIFICANCE``
 standard deviations of its timing floor. No estimate, no resampling.
 
+Coarse acquisition first. A moving platform shifts the carrier by ``a fc``; at a high carrier
+and a low symbol rate that rotates the training by a cycle or more, which wipes out the very
+peaks the envelope estimate reads (a generated site at 27.4 kHz and 0.95 m/s lost every
+frame). :func:`coarse_doppler` therefore searches the rotation of the training on a grid
+inside the bound first; when it finds a significant one, the frame is resampled by it and the
+envelope estimate only refines it within the grid's resolution (beyond that the envelopes
+matched different arrivals).
+
 References
 ----------
 Proakis, J. G., *Digital Communications*, 4th ed., 2001, ch. 6 (matched filter, carrier and
@@ -59,6 +67,19 @@ DETECT_OVER_CHANCE = 4.0
 _ENVELOPE_SAMPLES = 8
 #: Candidate preamble peaks tried when the strongest one fails the detection test.
 RESYNC_CANDIDATES = 3
+#: Coarse Doppler acquisition: the carrier shift ``a fc`` rotates the preamble, and a rotation
+#: of a cycle or more over it wipes out its correlation peak (and the head/tail envelopes the
+#: fine estimate reads). Candidate scales inside the site's bound are tried on the preamble,
+#: spaced so that the rotation left over it is at most ``COARSE_STEP_CYCLES / 2`` of a cycle
+#: (0.125 cycle: at most 0.25 dB of correlation loss, sinc^2); one is used only when its peak
+#: power exceeds the unshifted one by ``COARSE_MIN_GAIN`` (3 dB), far above the peak's noise
+#: after 64 symbols of correlation gain (common practice, no source).
+COARSE_STEP_CYCLES = 0.25
+COARSE_MIN_GAIN = 2.0
+#: Candidates each side of zero in the coarse search, at most (its cost), and the shortest
+#: sequence it correlates (the detection preamble).
+COARSE_MAX_CANDIDATES = 16
+SYNC_FOR_COARSE = 64
 #: Upsampling before the cubic-spline interpolation used for time scaling: the spline's error
 #: on a signal at 1/16 of its sample rate is below -80 dB (computed for the RRC spectrum).
 _INTERP_UPSAMPLE = 4
@@ -308,6 +329,47 @@ def measure_doppler(r, c_head, k0: float, sync_tail, sps: int, nominal: int, win
     return nominal / (nominal + lag) - 1.0, ""
 
 
+def coarse_doppler(r, training, sps: int, hi: float, a_max: float, sample_rate_hz: float,
+                   carrier_hz: float) -> tuple[float, float]:
+    """Coarse time scale from the carrier shift it gives the training: ``(a, step)``, the scale
+    (0 when none is significant) and the grid step, the resolution the fine estimate refines within.
+
+    The matched-filter output ``r`` is derotated by ``exp(-j 2 pi a fc n / fs)`` for candidate
+    scales on a grid inside ``[-a_max, a_max]`` (module constants), the correlation peak power
+    of the first ``n`` training symbols is found for each in ``[0, hi)``, and the best is
+    refined by a parabola through its neighbours. The longer the sequence the finer the grid:
+    ``n`` is the whole training, at least the preamble, but at most what keeps the grid to
+    ``COARSE_MAX_CANDIDATES`` each side. Over the sequence the time scale moves the symbols by
+    far less than one, so only the rotation matters here (Li et al. 2008: the carrier shift of
+    the wideband model is ``a fc``).
+    """
+    rs = sample_rate_hz / sps
+    longest = COARSE_MAX_CANDIDATES * COARSE_STEP_CYCLES * rs / (carrier_hz * max(a_max, 1e-12))
+    n_seq = int(np.clip(longest, SYNC_FOR_COARSE, len(training)))
+    sync_head = np.asarray(training)[:n_seq]
+    step = COARSE_STEP_CYCLES * rs / (n_seq * carrier_hz)
+    k_max = int(math.floor(a_max / step))
+    if k_max < 1:
+        return 0.0, step
+    grid = np.arange(-k_max, k_max + 1) * step
+    n = np.arange(r.size)
+    power = np.empty(grid.size)
+    for i, a in enumerate(grid):
+        c = correlate_sequence(r * np.exp(-2j * np.pi * a * carrier_hz * n / sample_rate_hz), sync_head, sps)
+        _, v = _peak(c, 0, hi)
+        power[i] = abs(v) ** 2
+    best = int(np.argmax(power))
+    if not power[best] >= COARSE_MIN_GAIN * power[k_max]:
+        return 0.0, step
+    frac = 0.0
+    if 0 < best < grid.size - 1:
+        y0, y1, y2 = power[best - 1], power[best], power[best + 1]
+        den = y0 - 2 * y1 + y2
+        if den < 0:
+            frac = float(np.clip(0.5 * (y0 - y2) / den, -0.5, 0.5))
+    return float(np.clip(grid[best] + frac * step, -a_max, a_max)), step
+
+
 def derotation(q_first, q_second, gap_symbols: float, snr: float, n_symbols: int) -> float:
     """Residual carrier offset (rad per symbol) from two channel estimates ``gap_symbols`` apart,
     or 0 when it is not significant: the angle of ``<q1, q2>`` has a standard deviation of about
@@ -365,7 +427,20 @@ def synchronise(y, *, rolloff, sps, sync_head, sync_tail, training, n_frame_symb
         # two passes: after the first compensation head and tail sit at the same fractional
         # sample offset, so the bias of the parabolic refinement cancels in the second estimate
         y0 = y
-        for _ in range(2):
+        # a platform's carrier shift can rotate the preamble by a cycle or more and wipe out
+        # the peaks the fine estimate reads: acquire it coarsely first (the significance test
+        # of the coarse step is its own, the fine one then refines from there)
+        a0, a_res = coarse_doppler(r, training, sps, hi_head, a_max, sample_rate_hz, carrier_hz)
+        if a0:
+            doppler = a0
+            y = time_scale(y0, a0, sample_rate_hz, carrier_hz, inverse=True)
+            r = matched_filter(y, rolloff, sps)
+            c = correlate_sequence(r, sync_head, sps)
+            k0, _ = _peak(c, 0, hi_head)
+            k0 = 0.0 if k0 is None else k0
+            floor = DOPPLER_SIGNIFICANCE * doppler_floor(rolloff, len(sync_head),
+                                                         _preamble_snr(r, k0, sync_head, sps), n_frame_symbols)
+        for _ in range(3 if a0 else 2):
             a_step, why = measure_doppler(r, c, k0, sync_tail, sps, nominal, window, a_max)
             if a_step is None:
                 if doppler == 0.0:
@@ -378,7 +453,11 @@ def synchronise(y, *, rolloff, sps, sync_head, sync_tail, training, n_frame_symb
             if doppler == 0.0 and abs(a) < floor:
                 note = "time scale below its noise floor"
                 break
-            if abs(a_step) < 1e-7:
+            if abs(a_step) < 1e-7 or (a0 and abs(a_step) < floor):
+                break
+            if a0 and abs(a - a0) > a_res:
+                # beyond the coarse estimate's resolution: the envelopes matched different
+                # arrivals (the surface moved them), keep the coarse scale
                 break
             doppler = a
             y = time_scale(y0, a, sample_rate_hz, carrier_hz, inverse=True)

@@ -44,14 +44,33 @@ SNR_TOLERANCE_DB = 1.5
 TARGET_AGREE = 0.95
 TARGET_WITHIN = 0.90
 ROW_FIELDS = ("range_m", "net_bit_rate_bps", "modulation", "symbol_rate_baud", "receiver", "snr_band_db",
-              "snr_out_db", "ber_predicted", "margin_db", "spread_90_s", "ber_measured", "ber_measured_low",
+              "snr_out_predicted_db", "ber_predicted", "margin_db", "spread_90_s", "ber_measured", "ber_measured_low",
               "ber_measured_high", "bits_measured", "snr_out_measured_db", "snr_out_repredicted_db",
               "verify_verdict", "verify_note", "error")
+
+
+#: Address space per worker process, bytes: a site whose channel asks for more (thousands of
+#: arrivals on a reflective shallow site) then fails with a MemoryError on its row instead of
+#: taking the shared machine down.
+WORKER_MEMORY_BYTES = 6 * 2 ** 30
+
+
+def _limit_memory() -> None:
+    try:
+        import resource
+
+        soft, hard = resource.getrlimit(resource.RLIMIT_AS)
+        cap = WORKER_MEMORY_BYTES if hard == resource.RLIM_INFINITY else min(WORKER_MEMORY_BYTES, hard)
+        if soft == resource.RLIM_INFINITY or soft > cap:
+            resource.setrlimit(resource.RLIMIT_AS, (cap, hard))
+    except (ImportError, ValueError, OSError):  # not on this platform: run unbounded
+        pass
 
 
 def plan_site(job):
     """Plan and verify one generated site; returns its rows (plain dicts) and timing."""
     seed, index, max_bits, verify_seed = job
+    _limit_memory()
     from aculink.planning import plan_rates, plan_rows
     from aculink.site.loader import site_from_dict
 
@@ -90,6 +109,7 @@ def diagnose_row(job):
     optimistic prediction; a large change between the fans, at the ray amplitudes.
     """
     seed, row = job
+    _limit_memory()
     from aculink.channel import channel_for_site, link_budget
     from aculink.modem import simulate_link
     from aculink.site.loader import site_from_dict
@@ -160,7 +180,7 @@ def summarise(rows) -> dict:
         sel = [r for r in chosen if rx in ("all", r["receiver"]) and r["snr_out_measured_db"] is not None]
         if not sel:
             continue
-        d = np.array([r["snr_out_measured_db"] - r["snr_out_db"] for r in sel])
+        d = np.array([r["snr_out_measured_db"] - r["snr_out_predicted_db"] for r in sel])
         own = np.array([r["snr_out_measured_db"] - (r.get("snr_out_repredicted_db") or np.nan) for r in sel])
         out.setdefault("snr_own_fan_median", {})[rx] = float(np.nanmedian(own)) if np.isfinite(own).any() else None
         out["snr"][rx] = {"n": len(sel), "median": float(np.median(d)), "p10": float(np.percentile(d, 10)),
@@ -181,7 +201,7 @@ def report(rows, summary, wall_s, args) -> None:
         print(f"{r['site']:>4} {r['range_m'] / 1000:>5.2f}k {r['profile']:>11} {r['sediment'][:18]:>18} "
               f"{r['wind_mps']:>4.1f} {r['carrier_hz'] / 1000:>4.1f}k {r['net_bit_rate_bps'] / 1000:>5.2f}k "
               f"{cfg:>18} {r['ber_predicted']:>8.1e} {meas if meas is not None else float('nan'):>8.1e} "
-              f"{r['snr_out_db']:>7.1f} {r['snr_out_measured_db'] or float('nan'):>7.1f} {r['verify_verdict']}")
+              f"{r['snr_out_predicted_db']:>7.1f} {r['snr_out_measured_db'] or float('nan'):>7.1f} {r['verify_verdict']}")
     s = summary
     print()
     print(f"sites {args.sites}, seed {args.seed}: {s['rows']} rows, {s['chosen']} with a workable rate, "
@@ -224,7 +244,7 @@ def diagnose(rows, args) -> None:
         print(f"  site {row['site']} {row['range_m'] / 1000:.2f} km {row['profile']} {row['sediment']} wind "
               f"{row['wind_mps']} drift {row['source_speed_mps']} fc {row['carrier_hz']:.0f} "
               f"{row['modulation']} {row['symbol_rate_baud']:.0f} {row['receiver']} spread "
-              f"{row['spread_90_s'] * row['symbol_rate_baud']:.0f} sym; predicted {row['snr_out_db']:.1f} dB "
+              f"{row['spread_90_s'] * row['symbol_rate_baud']:.0f} sym; predicted {row['snr_out_predicted_db']:.1f} dB "
               f"(own fan {first[2] if isinstance(first[2], str) else round(first[2], 1)}) -> {cause}\n      {cells}")
     print("causes: " + ", ".join(f"{k} {v}" for k, v in sorted(causes.items(), key=lambda kv: -kv[1])))
 

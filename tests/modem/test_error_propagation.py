@@ -80,3 +80,13 @@ def test_mmse_dfe_estimation_loss_against_monte_carlo(h, snr_db):
     assert r.snr_out_db < p.snr_finite_db
     assert abs(r.snr_out_db - p.snr_out_db) < 0.6
     assert p.snr_out_db <= r.snr_out_db + 0.2
+
+
+def test_long_feedback_gives_the_branching_mean_without_overflow():
+    """Harris 1963 (Galton-Watson mean, 1 / (1 - m)): 400 small feedback taps on 64-QAM at 20 dB
+    (a long reverberant channel) cause m < 1 errors per error; the factor is the branching mean.
+    The cap 32^400 of the Duttweiler-Mazo-Messerschmitt generalisation overflows a float, which
+    used to abort the whole prediction with an OverflowError."""
+    factor, m = error_propagation(np.full(400, 0.02), 100.0, "64qam")
+    assert 0.0 < m < 1.0
+    assert factor == pytest.approx(1.0 / (1.0 - m), rel=1e-12)
