@@ -64,15 +64,6 @@ def _check_band(carrier_hz, bandwidth_hz):
     return fc, b
 
 
-def _bed_critical_grazing_rad(site):
-    """The seabed's critical grazing angle at the deepest water, rad; None for a bed slower than the water."""
-    from aculink.site.seabed import critical_grazing_angle_rad
-
-    c_w = float(site.water.profile.speed(np.array([site.seabed.max_depth_m]))[0])
-    theta = float(critical_grazing_angle_rad(c_w, float(site.seabed.sound_speed_mps)))
-    return None if not np.isfinite(theta) else theta
-
-
 @dataclass(frozen=True, eq=False)
 class Channel:
     """Sparse multipath channel over a modem band (see the module docstring).
@@ -270,7 +261,7 @@ class Channel:
             geometry={"source_depth_m": float(site.source.depth_m), "range_m": r,
                       "receiver_depth_m": z},
             reason=reason,
-        ), sound_speed_mps=c_mean, keep_grazing_rad=_bed_critical_grazing_rad(site))
+        ), sound_speed_mps=c_mean, keep_grazing_rad=_keep_angle(arrivals, site))
 
     # ------------------------------------------------------------------ basic properties
     @property
@@ -498,3 +489,14 @@ def channel_for_site(site, range_m=None, depth_m=None, *, n_freq=17):
     moved = site.with_geometry(range_m=r, depth_m=z)
     arrivals = find_arrivals(moved, np.array([r]), np.array([z]), freq_hz=freq)
     return Channel.from_arrivals(arrivals, moved, r, z)
+
+
+def _keep_angle(arrivals, site):
+    """The critical grazing angle past which scattered energy is lost, as the eigenray stage used
+    it (its ``scatter_keep_angle_rad`` attribute; NaN: none), else the site's bed."""
+    from aculink.site.surface import scatter_keep_angle_rad
+
+    value = arrivals.attrs.get("scatter_keep_angle_rad")
+    if value is None:
+        return scatter_keep_angle_rad(site)
+    return None if not np.isfinite(value) else float(value)

@@ -57,40 +57,14 @@ import numpy as np
 from scipy import special
 
 from aculink.channel.variation import scattered_doppler_spread_hz, surface_phase_std
+from aculink.site.surface import arriving_scattered_fraction, kept_fraction, mean_square_slope
 
 #: Sub-paths per surface path.
 SUBPATHS = 4
 #: Clusters with less than this fraction of the incident power are not added (a calm sea).
 MIN_SCATTERED_FRACTION = 1e-6
-#: Cox and Munk (1954) clean-surface mean-square slope: s^2 = A + B U_12.5 (from memory).
-COX_MUNK_A, COX_MUNK_B = 3.0e-3, 5.12e-3
-#: Roughness length of the neutral logarithmic wind profile, m (the one behind
-#: ``aculink.constants.WIND_19P5_OVER_10``); gives U_12.5 / U_10 = 1.020.
-_Z0_M = 1.5e-4
-WIND_12P5_OVER_10 = math.log(12.5 / _Z0_M) / math.log(10.0 / _Z0_M)
 #: Golden angle, rad: deterministic, well-spread nominal phases of the sub-paths.
 _GOLDEN_ANGLE = math.pi * (3.0 - math.sqrt(5.0))
-
-
-def mean_square_slope(wind_speed_mps):
-    """Mean-square slope of a clean sea surface (both directions together).
-
-    Parameters
-    ----------
-    wind_speed_mps : array_like
-        Wind at 10 m, m/s (converted to 12.5 m with a neutral log profile, factor 1.020).
-
-    Returns
-    -------
-    numpy.ndarray
-        ``s^2 = 0.003 + 5.12e-3 U_12.5`` (dimensionless).
-
-    References
-    ----------
-    Cox and Munk (1954), J. Opt. Soc. Am. 44(11), 838-850, clean-surface fit (from memory).
-    """
-    u = np.asarray(wind_speed_mps, dtype=float) * WIND_12P5_OVER_10
-    return COX_MUNK_A + COX_MUNK_B * u
 
 
 def scattered_fraction(gamma2):
@@ -166,57 +140,6 @@ def cluster_excess_delays(sin2_sum, n_bounces, path_length_m, gamma2, mss, sound
     beta2 = tilt_bin_moments(theta / s_dir, n_sub) * s_dir ** 2
     cross = sin2_one * s_dir ** 2
     return (2.0 * l_h * n_scatter / sound_speed_mps)[:, None] * (beta2 + cross[:, None])
-
-
-def kept_fraction(sin2_one, mss, keep_grazing_rad):
-    """Share of the energy scattered at one bounce that leaves below ``keep_grazing_rad``.
-
-    A facet tilted by beta in the vertical plane sends the reflection out at grazing angle
-    theta + 2 beta; beta is the Cox-Munk in-plane tilt (rms ``sqrt(mss / 2)``) truncated to
-    ``|beta| < theta`` as in :func:`cluster_excess_delays`. Energy sent steeper than the seabed's
-    critical grazing angle leaves the waveguide through the bed within a few bounces, so it does not
-    reach the receiver (our modelling choice; the critical angle from Snell's law [Jensen2011]).
-
-    Parameters
-    ----------
-    sin2_one : (P,) sin^2 of one bounce's grazing angle.
-    mss : float
-        Mean-square slope (both directions).
-    keep_grazing_rad : float or None
-        The seabed's critical grazing angle; None (no critical angle) keeps everything.
-
-    Returns
-    -------
-    (P,) ndarray in [0, 1].
-    """
-    sin2_one = np.asarray(sin2_one, dtype=float)
-    if keep_grazing_rad is None:
-        return np.ones_like(sin2_one)
-    theta = np.arcsin(np.sqrt(np.clip(sin2_one, 0.0, 1.0)))
-    s_dir = math.sqrt(mss / 2.0)
-    top = np.minimum((keep_grazing_rad - theta) / 2.0, theta)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        kept = (special.ndtr(top / s_dir) - special.ndtr(-theta / s_dir)) / (
-            special.ndtr(theta / s_dir) - special.ndtr(-theta / s_dir))
-    return np.clip(np.nan_to_num(kept, nan=1.0), 0.0, 1.0)
-
-
-def arriving_scattered_fraction(gamma2, n_bounces, kept):
-    """Share of a path's incident energy that arrives scattered, over its ``n`` bounces.
-
-    At each bounce the coherent share ``exp(-Gamma^2 / n)`` goes on specularly and the scattered
-    rest goes on at the rate ``kept`` (:func:`kept_fraction`), so the energy that arrives is
-    ``(exp(-Gamma^2/n) + (1 - exp(-Gamma^2/n)) kept)^n`` of the incident, of which ``exp(-Gamma^2)``
-    is coherent. With ``kept = 1`` this is ``1 - exp(-Gamma^2)`` [Eckart1953] (nothing lost).
-    """
-    g2 = np.asarray(gamma2, dtype=float)
-    n = np.maximum(np.asarray(n_bounces, dtype=float), 1.0)
-    kept = np.asarray(kept, dtype=float)
-    if g2.ndim == 2:
-        n, kept = n[:, None], kept[:, None]
-    per = np.exp(-g2 / n)
-    total = np.exp(n * np.log(per + (1.0 - per) * kept))
-    return np.clip(total - np.exp(-g2), 0.0, 1.0)
 
 
 def add_surface_scatter(channel, *, n_sub=SUBPATHS, sound_speed_mps=None, keep_grazing_rad=None):

@@ -19,8 +19,9 @@ How it works (kernels in :mod:`aculink.propagation._kernels_eigen`):
    ray and that boundary. The beam sum of a run stays finite at caustics and turning points, where
    the geometric amplitude sqrt(c cos(theta0) / (c0 r |q|)) diverges as q -> 0 (Cerveny 2001, ch. 5;
    Jensen et al. 2011, sect. 3.4).
-3. **Prune** (:func:`_prune`). Arrivals whose smooth-surface level (beam sum and absorption, no
-   Eckart reduction: the channel stage scatters a surface path's lost power back) is more than the
+3. **Prune** (:func:`_prune`). Arrivals whose arriving level (beam sum and absorption, with the
+   surface taking only what the channel stage's surface model loses: coherent and scattered energy
+   together, less what is scattered past the seabed's critical angle) is more than the
    dynamic range plus :data:`PRUNE_MARGIN_DB` below the strongest at their receiver are dropped (and
    counted); runs with neither an eigenray nor a caustic (beam tails) are removed.
 4. **Refine** (:func:`_refine`). An arrival's eigenray comes from the fan without re-shooting: the
@@ -35,7 +36,7 @@ How it works (kernels in :mod:`aculink.propagation._kernels_eigen`):
 5. **Merge** (:func:`_merge`). An arrival's amplitude is ray theory at its eigenray where no caustic
    is within the beams' reach (exact to the order of ray theory, and not truncated at the surface
    and the seabed as a beam sum is), else the beam sum; times the Eckart surface factor and the
-   absorption. Arrivals whose smooth-surface level is more than ``dynamic_range_db`` below the
+   absorption. Arrivals whose arriving level (as for the prune) is more than ``dynamic_range_db`` below the
    strongest at every requested frequency are dropped and counted. :func:`_pack` pads and sorts them
    by delay.
 
@@ -180,6 +181,27 @@ def _surface_factor(site, sin2, n_surface, freq_hz, c_surface):
                                              np.asarray(freq_hz)[None, :] + np.zeros(np.shape(sin2) + (1,)),
                                              sigma * np.sqrt(np.asarray(sin2))[..., None], c_surface))
     return np.where((n_surface % 2 == 1)[..., None], -mag, mag)
+
+
+def _arriving_factor(site, sin2, n_surface, freq_hz, c_surface, keep):
+    """Amplitude share of a path's smooth-surface energy that reaches the receiver, coherent and
+    scattered together (the channel stage's surface model, :func:`aculink.site.surface.
+    surviving_energy_fraction`) with energy scattered steeper than ``keep`` (rad; None: no limit)
+    lost: 1 for a path without surface bounces or on a calm sea, shape (..., F)."""
+    from aculink.site.surface import kept_fraction, mean_square_slope, surviving_energy_fraction
+
+    sin2 = np.asarray(sin2, dtype=float)
+    n = np.asarray(n_surface)
+    f = np.asarray(freq_hz, dtype=float)
+    sigma = site.surface.rms_height_m
+    if sigma <= 0 or keep is None:
+        return np.ones(sin2.shape + (f.size,))
+    k = 2.0 * np.pi * f / c_surface
+    gamma2 = 4.0 * (k * sigma) ** 2 * np.nan_to_num(sin2)[..., None]
+    n_b = np.maximum(n, 1)
+    kept = kept_fraction(np.nan_to_num(sin2) / n_b, float(mean_square_slope(site.surface.wind_speed_mps)), keep)
+    factor = np.sqrt(surviving_energy_fraction(gamma2, n_b, kept))
+    return np.where((n > 0)[..., None], factor, 1.0)
 
 
 def _column_index(member):
@@ -362,11 +384,12 @@ def _level_db(amplitude):
         return 20.0 * np.log10(np.abs(amplitude))
 
 
-def _prune(rec, ints, beam, dyn, shape, n_freq):
+def _prune(site, rec, ints, beam, dyn, shape, freqs, c_surface, keep):
     """Keep arrivals within the dynamic range plus :data:`PRUNE_MARGIN_DB` of the strongest at their
-    receiver, by the beam sum with the strongest ray's absorption and a *smooth* surface (no Eckart
-    reduction: the channel stage gives a surface path's scattered power back, which a path pruned on
-    its coherent level would lose); returns (keep mask, pruned counts per receiver).
+    receiver, by the beam sum with the strongest ray's absorption and the energy that survives the
+    surface (:func:`_arriving_factor`; not the Eckart coherent level: the channel stage gives a surface
+    path's scattered power back, which a path pruned on its coherent level would lose); returns (keep
+    mask, pruned counts per receiver).
 
     Runs with neither an eigenray (bracket) nor a caustic are not arrivals at all: the tails of wide
     beams of a branch whose eigenray (if any) is another arrival, with no stationary point of their
@@ -375,8 +398,9 @@ def _prune(rec, ints, beam, dyn, shape, n_freq):
     across a profile knot).
     """
     prow = rec[ints[:, _ke.Q_PRINCIPAL], ints[:, _ke.Q_RANGE]]
-    smooth = np.abs(beam) * 10.0 ** (-_absorption_db(prow, n_freq) / 20.0)
-    keep, pruned = _within(ints, _level_db(smooth), dyn + PRUNE_MARGIN_DB, shape)
+    smooth = np.abs(beam) * 10.0 ** (-_absorption_db(prow, len(freqs)) / 20.0)
+    arriving = smooth * _arriving_factor(site, prow[:, _k.R_SIN2], ints[:, _ke.Q_NS], freqs, c_surface, keep)
+    keep, pruned = _within(ints, _level_db(arriving), dyn + PRUNE_MARGIN_DB, shape)
     tail = (ints[:, _ke.Q_N_BRACKETS] == 0) & (ints[:, _ke.Q_CAUSTIC] == 0)
     np.add.at(pruned, (ints[tail & ~keep, _ke.Q_RANGE], ints[tail & ~keep, _ke.Q_DEPTH]), -1)
     return keep & ~tail, pruned
@@ -558,20 +582,22 @@ def _refine(site, medium, zs, fan, arrays, ints, delay, depths, r_sorted, tol, m
     return out
 
 
-def _merge(site, medium, ints, beam, beam_delay, eig, freqs, dyn, shape):
+def _merge(site, medium, ints, beam, beam_delay, eig, freqs, dyn, shape, keep):
     """Each arrival's amplitude, the mask of those kept and the dropped counts per receiver.
 
     The amplitude is the ray-theory one of the eigenray where :func:`_refine` gave it, else the beam
     sum (turned from the phase reference ``beam_delay`` to the reported delay), times the Eckart
-    surface factor and the absorption. An arrival is kept when its smooth-surface level (before the
-    Eckart reduction, whose lost power the channel stage scatters back) is within ``dyn`` dB of the
-    strongest smooth-surface level at its receiver at some frequency.
+    surface factor and the absorption. An arrival is kept when its arriving level (coherent and
+    scattered energy together, :func:`_arriving_factor`) is within ``dyn`` dB of the strongest at its
+    receiver at some frequency.
     """
     shift = np.exp(-2j * np.pi * freqs[None, :] * (beam_delay - eig["delay"])[:, None])
     base = np.where(np.isnan(eig["geometric"])[:, None], beam * shift, eig["geometric"][:, None])
     smooth = base * 10.0 ** (-eig["absorption"] / 20.0)
     surface = _surface_factor(site, eig["sin2"], ints[:, _ke.Q_NS], freqs, medium.surface_speed_mps)
-    strong, dropped = _within(ints, _level_db(smooth), dyn, shape)
+    arriving = smooth * _arriving_factor(site, eig["sin2"], ints[:, _ke.Q_NS], freqs, medium.surface_speed_mps,
+                                         keep)
+    strong, dropped = _within(ints, _level_db(arriving), dyn, shape)
     return smooth * surface, strong, dropped
 
 
@@ -668,13 +694,17 @@ def solve_arrivals(site, ranges_m=None, depths_m=None, freq_hz=None, *, source_d
     c0 = float(site.water.profile.speed(zs))
     arrays = _ray_arrays(site, fan.rec, fan.thetas, r_sorted, c0, c0 / float(freqs.min()))
     ints, delay, beam = _candidates(arrays, depths, freqs, site.seabed.depth_at(r_sorted))
-    keep, pruned = _prune(fan.rec, ints, beam, dyn, shape, medium.n_freq)
+    # energy scattered past the bed's critical angle is lost (a custom bottom has no known angle)
+    from aculink.site.surface import scatter_keep_angle_rad
+
+    keep_angle = scatter_keep_angle_rad(site) if bottom_reflection is None else None
+    keep, pruned = _prune(site, fan.rec, ints, beam, dyn, shape, freqs, medium.surface_speed_mps, keep_angle)
     ints, delay, beam = ints[keep], delay[keep], beam[keep]
     eig = _refine(site, medium, zs, fan, arrays, ints, delay, depths, r_sorted, tol, refine, c0)
-    amp, strong, dropped = _merge(site, medium, ints, beam, delay, eig, freqs, dyn, shape)
+    amp, strong, dropped = _merge(site, medium, ints, beam, delay, eig, freqs, dyn, shape, keep_angle)
     sel = {key: v[strong] for key, v in eig.items()}
     return _pack(site, ranges, depths, freqs, order, ints[strong], amp[strong], sel, pruned + dropped,
-                 fan.reasons, zs, dyn, tol)
+                 fan.reasons, zs, dyn, tol, keep_angle)
 
 
 #: The search fan as each receiver range sees it: launch angles (rays, ranges) and crossing records
@@ -709,7 +739,7 @@ def _unreached(rec, info, r_sorted, angles):
     return reasons
 
 
-def _pack(site, ranges, depths, freqs, order, ints, amp, eig, n_dropped, reasons, zs, dyn, tol):
+def _pack(site, ranges, depths, freqs, order, ints, amp, eig, n_dropped, reasons, zs, dyn, tol, keep_angle):
     """Padded (range, depth, arrival) arrays sorted by delay, in the caller's range order."""
     n_r, n_z = ranges.size, depths.size
     jj, kk = ints[:, _ke.Q_RANGE], ints[:, _ke.Q_DEPTH]
@@ -740,6 +770,8 @@ def _pack(site, ranges, depths, freqs, order, ints, amp, eig, n_dropped, reasons
              "title": "eigenray arrivals",
              "amplitude_method": "ray theory at the eigenray; Gaussian-beam sum of the fan's rays where a caustic "
                                  "is within the beams' reach or there is no eigenray (Cerveny 2001, ch. 5)",
+             # read by the channel stage's surface scatter (NaN: every scattered joule kept)
+             "scatter_keep_angle_rad": float("nan") if keep_angle is None else float(keep_angle),
              "n_reshot": int(np.sum(eig["reshot"])), "n_interpolated": int(np.sum(~eig["reshot"] & (
                  ints[:, _ke.Q_BRACKET] >= 0)))}
     if empty.any():

@@ -10,7 +10,10 @@ caller says the wind is already at 19.5 m.
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
+from scipy import special
 
 from aculink.constants import (
     GRAVITY_MPS2,
@@ -27,6 +30,11 @@ __all__ = [
     "significant_wave_height_pierson_moskowitz",
     "surface_vertical_velocity_rms",
     "site_with_wind",
+    "mean_square_slope",
+    "kept_fraction",
+    "arriving_scattered_fraction",
+    "surviving_energy_fraction",
+    "scatter_keep_angle_rad",
 ]
 
 #: Wind heights (m) whose conversion to 19.5 m is known here.
@@ -253,3 +261,100 @@ def site_with_wind(site, wind_speed_mps, *, field="wind speed"):
                                   rms_height_m=float(rms_wave_height_pierson_moskowitz(w)))
     noise = dataclasses.replace(site.noise, wind_speed_mps=w)
     return site.replace(surface=surface, noise=noise)
+
+
+#: Cox and Munk (1954) clean-surface mean-square slope: s^2 = A + B U_12.5 (from memory).
+COX_MUNK_A, COX_MUNK_B = 3.0e-3, 5.12e-3
+#: Roughness length of the neutral logarithmic wind profile, m (the one behind
+#: ``aculink.constants.WIND_19P5_OVER_10``); gives U_12.5 / U_10 = 1.020.
+_Z0_M = 1.5e-4
+WIND_12P5_OVER_10 = math.log(12.5 / _Z0_M) / math.log(10.0 / _Z0_M)
+
+
+def mean_square_slope(wind_speed_mps):
+    """Mean-square slope of a clean sea surface (both directions together).
+
+    Parameters
+    ----------
+    wind_speed_mps : array_like
+        Wind at 10 m, m/s (converted to 12.5 m with a neutral log profile, factor 1.020).
+
+    Returns
+    -------
+    numpy.ndarray
+        ``s^2 = 0.003 + 5.12e-3 U_12.5`` (dimensionless).
+
+    References
+    ----------
+    Cox and Munk (1954), J. Opt. Soc. Am. 44(11), 838-850, clean-surface fit (from memory).
+    """
+    u = np.asarray(wind_speed_mps, dtype=float) * WIND_12P5_OVER_10
+    return COX_MUNK_A + COX_MUNK_B * u
+
+
+def kept_fraction(sin2_one, mss, keep_grazing_rad):
+    """Share of the energy scattered at one bounce that leaves below ``keep_grazing_rad``.
+
+    A facet tilted by beta in the vertical plane sends the reflection out at grazing angle
+    theta + 2 beta; beta is the Cox-Munk in-plane tilt (rms ``sqrt(mss / 2)``) truncated to
+    ``|beta| < theta`` as in :func:`cluster_excess_delays`. Energy sent steeper than the seabed's
+    critical grazing angle leaves the waveguide through the bed within a few bounces, so it does not
+    reach the receiver (our modelling choice; the critical angle from Snell's law [Jensen2011]).
+
+    Parameters
+    ----------
+    sin2_one : (P,) sin^2 of one bounce's grazing angle.
+    mss : float
+        Mean-square slope (both directions).
+    keep_grazing_rad : float or None
+        The seabed's critical grazing angle; None (no critical angle) keeps everything.
+
+    Returns
+    -------
+    (P,) ndarray in [0, 1].
+    """
+    sin2_one = np.asarray(sin2_one, dtype=float)
+    if keep_grazing_rad is None:
+        return np.ones_like(sin2_one)
+    theta = np.arcsin(np.sqrt(np.clip(sin2_one, 0.0, 1.0)))
+    s_dir = math.sqrt(mss / 2.0)
+    top = np.minimum((keep_grazing_rad - theta) / 2.0, theta)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        kept = (special.ndtr(top / s_dir) - special.ndtr(-theta / s_dir)) / (
+            special.ndtr(theta / s_dir) - special.ndtr(-theta / s_dir))
+    return np.clip(np.nan_to_num(kept, nan=1.0), 0.0, 1.0)
+
+
+def arriving_scattered_fraction(gamma2, n_bounces, kept):
+    """Share of a path's incident energy that arrives scattered, over its ``n`` bounces.
+
+    At each bounce the coherent share ``exp(-Gamma^2 / n)`` goes on specularly and the scattered
+    rest goes on at the rate ``kept`` (:func:`kept_fraction`), so the energy that arrives is
+    ``(exp(-Gamma^2/n) + (1 - exp(-Gamma^2/n)) kept)^n`` of the incident, of which ``exp(-Gamma^2)``
+    is coherent. With ``kept = 1`` this is ``1 - exp(-Gamma^2)`` [Eckart1953] (nothing lost).
+    """
+    g2 = np.asarray(gamma2, dtype=float)
+    return np.clip(surviving_energy_fraction(g2, n_bounces, kept) - np.exp(-g2), 0.0, 1.0)
+
+
+def surviving_energy_fraction(gamma2, n_bounces, kept):
+    """Share of a surface path's incident (smooth-surface) energy that reaches the receiver,
+    coherent and scattered together: ``(exp(-Gamma^2/n) + (1 - exp(-Gamma^2/n)) kept)^n`` (see
+    :func:`arriving_scattered_fraction`); 1 when nothing is lost past the critical angle."""
+    g2 = np.asarray(gamma2, dtype=float)
+    n = np.maximum(np.asarray(n_bounces, dtype=float), 1.0)
+    kept = np.asarray(kept, dtype=float)
+    if g2.ndim == n.ndim + 1:
+        n, kept = n[..., None], kept[..., None]
+    per = np.exp(-g2 / n)
+    return np.exp(n * np.log(per + (1.0 - per) * kept))
+
+
+def scatter_keep_angle_rad(site):
+    """The seabed's critical grazing angle at the deepest water, rad (energy scattered steeper
+    leaves through the bed); None for a bed that is not faster than the water."""
+    from aculink.site.seabed import critical_grazing_angle_rad
+
+    c_w = float(site.water.profile.speed(np.array([site.seabed.max_depth_m]))[0])
+    theta = float(critical_grazing_angle_rad(c_w, float(site.seabed.sound_speed_mps)))
+    return None if not np.isfinite(theta) else theta

@@ -222,3 +222,16 @@ def test_winter_shelf_tl_has_no_cliff_at_five_km():
         ch = Channel.from_arrivals(arr.isel(range=[k]), site, range_m=r, depth_m=50.0)
         tl.append(link_budget(site.with_geometry(range_m=r, depth_m=50.0), ch).tl_db)
     assert np.max(np.abs(np.diff(tl))) < 3.0
+
+
+def test_the_arrivals_say_whether_scattered_energy_past_the_bed_is_lost(shelf_site):
+    """Arrivals traced with no known critical angle (attribute NaN) keep every scattered joule in
+    the channel (TL equals the smooth-surface TL, Eckart 1953 energy conservation); with the bed's
+    angle recorded, TL is higher by what the steep scattered energy loses."""
+    site = _windy(shelf_site, 8.0)
+    smooth, rough = _rough_arrivals(site)
+    ref = link_budget(site, Channel.from_arrivals(smooth, site.replace(surface=Surface(0.0, 0.0)))).tl_db
+    rough.attrs["scatter_keep_angle_rad"] = float("nan")
+    assert link_budget(site, Channel.from_arrivals(rough, site)).tl_db == pytest.approx(ref, abs=0.01)
+    rough.attrs["scatter_keep_angle_rad"] = float(np.radians(10.0))
+    assert link_budget(site, Channel.from_arrivals(rough, site)).tl_db > ref + 0.05
