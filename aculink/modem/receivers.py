@@ -34,7 +34,8 @@ import numpy as np
 
 from aculink.errors import AculinkError, check_range, closest
 from aculink.modem import _kernels
-from aculink.modem.analytic import DfeDesign, mmse_dfe_design
+from aculink.modem._design_fast import mmse_dfe_design_fast as mmse_dfe_design
+from aculink.modem.analytic import DfeDesign
 
 RECEIVERS = ("none", "linear", "dfe", "mmse-dfe")
 ALGORITHMS = ("rls", "nlms")

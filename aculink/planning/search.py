@@ -23,9 +23,7 @@ energy spread, the link budget and ``predict_link`` for the candidates that can 
 
 from __future__ import annotations
 
-import contextlib
 import math
-import threading
 from dataclasses import dataclass
 
 import numpy as np
@@ -230,9 +228,8 @@ def evaluate_block(site, ranges_m, depths_m, grid: CandidateGrid, target_ber, ma
     # sweep and a Dask worker
     with threadpool_limits(limits=1, user_api="blas"):
         arrivals = find_arrivals(site, ranges, depths[keep], freq_hz=band_frequencies(site))
-        with fast_modem_design():
-            _evaluate_points(out, arrivals, site, ranges, depths, keep, inside, grid, rolloff, target_ber,
-                             margin_db)
+        _evaluate_points(out, arrivals, site, ranges, depths, keep, inside, grid, rolloff, target_ber,
+                         margin_db)
     return out
 
 
@@ -257,33 +254,6 @@ def _evaluate_points(out, arrivals, site, ranges, depths, keep, inside, grid, ro
                 out["error"][i, j] = one_line(exc)
             except (ValueError, ArithmeticError, np.linalg.LinAlgError) as exc:
                 out["error"][i, j] = one_line(exc)
-
-
-_DESIGN_LOCK = threading.RLock()
-
-
-@contextlib.contextmanager
-def fast_modem_design():
-    """While the planner evaluates candidates, the modem stage's receiver designs use
-    :func:`aculink.modem._design_fast.mmse_dfe_design_fast` (the same design, formed from the
-    columns that are not fed back and updated between window starts, 3-4x faster on the
-    planner's spans; tested against :func:`aculink.modem.analytic.mmse_dfe_design`).
-
-    The modem stage looks the design function up in ``aculink.modem.receivers`` at each call,
-    so it is swapped there for the duration and restored after; a lock keeps threads of one
-    process from interleaving swaps. Every planner evaluation (tables, sweeps, availability)
-    runs under it, so they all give identical numbers wherever they run.
-    """
-    from aculink.modem import receivers
-    from aculink.modem._design_fast import mmse_dfe_design_fast
-
-    with _DESIGN_LOCK:
-        saved = receivers.mmse_dfe_design
-        receivers.mmse_dfe_design = mmse_dfe_design_fast
-        try:
-            yield
-        finally:
-            receivers.mmse_dfe_design = saved
 
 
 def predict_point(out, at, channel, budget, grid, rolloff, target_ber, margin_db) -> None:

@@ -140,12 +140,10 @@ def test_fast_evaluator_equals_the_candidate_loop():
     ranges, depths = np.array([600.0, 3000.0, 9000.0]), np.array([25.0, 80.0])
     tb, md = site.modem.target_ber, site.modem.margin_db
     fast = search.evaluate_block(site, ranges, depths, grid, tb, md)
-    # the same receiver design in both (the planner's fast design, checked against the modem
-    # stage's reference in tests/modem/test_design_fast.py) and the same single BLAS thread:
-    # this test is about the skip rule
+    # the same single BLAS thread in both: this test is about the skip rule
     from threadpoolctl import threadpool_limits
 
-    with search.fast_modem_design(), threadpool_limits(limits=1, user_api="blas"):
+    with threadpool_limits(limits=1, user_api="blas"):
         slow = _loop_evaluate(site, ranges, depths, grid, tb, md)
     assert np.all(fast["error"] == "")
     for key in search.POINT_FIELDS + ("snr_required_db",):
