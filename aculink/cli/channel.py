@@ -4,6 +4,8 @@ from __future__ import annotations
 
 from aculink.cli._common import add_site_argument, check_plot_path, load_site_arg, print_json
 
+__all__ = ["register", "run"]
+
 
 def register(subparsers) -> None:
     parser = subparsers.add_parser(

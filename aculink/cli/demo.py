@@ -11,6 +11,10 @@ import sys
 import time
 from pathlib import Path
 
+__all__ = ["DEFAULT_SITE", "DEFAULT_OUT", "register", "check_folder", "build_folder", "publish_folder",
+           "Geometry", "run", "step_site", "step_rays", "step_arrivals", "step_channel", "step_plan",
+           "step_receivers", "step_sweep", "demo_symbol_rate"]
+
 DEFAULT_SITE = "shelf_summer"
 DEFAULT_OUT = "aculink-demo"
 

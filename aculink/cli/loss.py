@@ -9,6 +9,8 @@ from aculink.cli._common import (add_site_argument, check_plot_path, load_site_a
 
 from aculink.cautions import CAUTION_LINE as CAUTION
 
+__all__ = ["register", "labelled", "run"]
+
 
 def register(subparsers) -> None:
     parser = subparsers.add_parser(

@@ -7,6 +7,8 @@ from pathlib import Path
 from aculink.cli._common import add_site_argument, load_site_arg, parse_span, print_json
 from aculink.io import reports as _reports
 
+__all__ = ["DEFAULT_RANGES", "register", "default_ranges", "run", "RATE_MARKS", "run_availability"]
+
 DEFAULT_RANGES = "500:20000:500"
 
 

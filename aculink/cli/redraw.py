@@ -9,6 +9,8 @@ from __future__ import annotations
 
 from aculink.cli._common import load_site_arg
 
+__all__ = ["register", "run", "stored_site", "redraw_sweep", "plan_dataset", "redraw_plan"]
+
 
 def register(subparsers) -> None:
     p = subparsers.add_parser(

@@ -6,6 +6,8 @@ import sys
 
 from aculink.cli._common import add_site_argument, load_site_arg, parse_span, print_json
 
+__all__ = ["register", "run"]
+
 
 def register(subparsers) -> None:
     p = subparsers.add_parser(

@@ -13,6 +13,8 @@ from pathlib import Path
 
 from aculink.errors import AculinkError
 
+__all__ = ["check_output_path", "atomic_path", "current_umask", "write_text_atomic"]
+
 
 def check_output_path(path, *, overwrite: bool = True) -> Path:
     """Refuse, before any work, an output that exists (unless ``overwrite``) or whose folder is

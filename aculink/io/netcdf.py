@@ -8,6 +8,8 @@ import numpy as np
 
 from aculink.io.atomic import atomic_path
 
+__all__ = ["netcdf_encoding", "write_netcdf"]
+
 
 def netcdf_encoding(ds) -> dict:
     """Per-variable encoding: compressed floats, variable-length strings, no fill on coords."""

@@ -7,6 +7,8 @@ from pathlib import Path
 
 from aculink.io.atomic import write_text_atomic
 
+__all__ = ["write_index"]
+
 _STYLE = """
 body { font-family: system-ui, sans-serif; margin: 2rem auto; max-width: 68rem; color: #1d2a33;
        line-height: 1.45; padding: 0 1rem; }

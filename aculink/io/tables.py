@@ -9,6 +9,8 @@ from pathlib import Path
 
 from aculink.io.atomic import write_text_atomic
 
+__all__ = ["format_table", "csv_text", "write_csv"]
+
 
 def _cell(value, fmt) -> str:
     if value is None or (isinstance(value, float) and not math.isfinite(value)):

@@ -35,6 +35,10 @@ import scipy.linalg
 from aculink.errors import AculinkError
 from aculink.modem import _kernels
 
+__all__ = ["folded_snr_from_taps", "EqualizerBounds", "water_filling", "equalizer_bounds", "DfeDesign",
+           "DIAGONAL_LOADING", "mmse_dfe_design", "single_tap_sinr", "rls_misadjustment",
+           "nlms_misadjustment", "error_propagation"]
+
 
 def folded_snr_from_taps(taps, snr, n_grid: int = 2 ** 16) -> np.ndarray:
     """``gamma(theta) = snr |H(theta)|^2`` on a uniform grid of ``n_grid`` points.

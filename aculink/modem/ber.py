@@ -33,6 +33,8 @@ from scipy.special import erfc
 
 from aculink.modem.constellations import MODULATIONS, check_modulation, constellation
 
+__all__ = ["q_function", "symbol_error_rate", "bit_error_rate", "es_n0_for_ber"]
+
 _GL_NODES = 96
 
 

@@ -18,6 +18,8 @@ import numpy as np
 
 from aculink.errors import AculinkError, closest
 
+__all__ = ["MODULATIONS", "Constellation", "check_modulation", "constellation"]
+
 #: Bits per symbol of each modulation the modem offers.
 MODULATIONS = {"bpsk": 1, "qpsk": 2, "8psk": 3, "16qam": 4, "64qam": 6}
 

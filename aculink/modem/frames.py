@@ -15,6 +15,9 @@ from dataclasses import dataclass
 
 from aculink.errors import AculinkError
 
+__all__ = ["SYNC_SYMBOLS", "MIN_PAYLOAD_SYMBOLS", "PAYLOAD_PER_TRAINING", "TRAINING_PER_TAP", "FrameLayout",
+           "default_training", "frame_layout"]
+
 #: Symbols of the detection preamble (and of the tail marker): 64 symbols give 18 dB of
 #: correlation gain for detection and timing (common practice, no source).
 SYNC_SYMBOLS = 64

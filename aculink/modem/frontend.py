@@ -48,6 +48,13 @@ from scipy.interpolate import make_interp_spline
 
 from aculink.modem.pulses import DEFAULT_SPAN_SYMBOLS, rrc_taps
 
+__all__ = ["MAX_DOPPLER_FACTOR", "DEFAULT_MAX_DOPPLER", "ENVELOPE_MIN_CORRELATION", "DETECT_MIN_SNR",
+           "DETECT_OVER_CHANCE", "RESYNC_CANDIDATES", "COARSE_STEP_CYCLES", "COARSE_MIN_GAIN",
+           "COARSE_MAX_CANDIDATES", "SYNC_FOR_COARSE", "shape", "matched_filter", "pulse_delay",
+           "time_scale", "rms_bandwidth_symbols", "doppler_floor", "DOPPLER_SIGNIFICANCE",
+           "correlate_sequence", "Sync", "fit_quality", "estimate_channel", "envelope_lag",
+           "measure_doppler", "coarse_doppler", "derotation", "synchronise"]
+
 #: Largest time-scale factor |a| the front end ever searches for (|v| <= 15 m/s at 1500 m/s).
 MAX_DOPPLER_FACTOR = 0.01
 #: Bound used when the caller does not know the site's motion: 5 m/s at 1500 m/s (a fast

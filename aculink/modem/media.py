@@ -20,6 +20,8 @@ from aculink.errors import AculinkError, check_range
 from aculink.modem.analytic import folded_snr_from_taps, water_filling
 from aculink.modem.pulses import filter_pulse, raised_cosine, raised_cosine_spectrum
 
+__all__ = ["is_channel", "TapMedium", "ChannelMedium", "cached_medium", "make_medium"]
+
 
 class _Memo(dict):
     """A per-object cache that pickles empty (a channel sent to a worker does not carry it)."""

@@ -62,6 +62,9 @@ from aculink.modem.media import cached_medium
 from aculink.modem.receivers import (MAX_FB_SYMBOLS, MAX_FF_SYMBOLS, check_receiver, design_for,
                                      feedback_delays, plan_receiver)
 
+__all__ = ["DEFAULT_ROLLOFF", "IMPLEMENTATION_LOSS_DB", "Prediction", "tracking_lag_s", "estimate_span",
+           "estimated_samples", "known_channel_bound", "predict_link"]
+
 #: Roll-off used when neither the caller nor the site gives one (the site default).
 DEFAULT_ROLLOFF = 0.25
 #: Noise autocorrelation lags computed once per symbol rate (the longest default feedforward).

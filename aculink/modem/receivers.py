@@ -37,6 +37,12 @@ from aculink.modem import _kernels
 from aculink.modem._design_fast import mmse_dfe_design_fast as mmse_dfe_design
 from aculink.modem.analytic import DfeDesign
 
+__all__ = ["RECEIVERS", "ALGORITHMS", "SPAN_THRESHOLD_DB", "FF_EXTRA_SYMBOLS", "MAX_FF_SYMBOLS",
+           "MAX_LE_SYMBOLS", "MAX_FB_SYMBOLS", "SPARSE_THRESHOLD_DB", "DEFAULT_NLMS_STEP", "RLS_DELTA",
+           "check_receiver", "check_algorithm", "pll_gains", "TRACK_MEMORY_S", "default_forgetting",
+           "ReceiverPlan", "response_extent", "plan_receiver", "feedback_delays", "design_for",
+           "FrameOutput", "run_frame"]
+
 RECEIVERS = ("none", "linear", "dfe", "mmse-dfe")
 ALGORITHMS = ("rls", "nlms")
 

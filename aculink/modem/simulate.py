@@ -31,6 +31,9 @@ from aculink.modem.receivers import (check_algorithm, check_receiver, design_for
                                      plan_receiver, run_frame)
 from aculink.modem.pulses import raised_cosine
 
+__all__ = ["TAIL_CHECK_SER", "clopper_pearson", "LinkResult", "doppler_bound", "design_noise_acf",
+           "simulate_link"]
+
 #: A frame whose decisions on the known tail marker are wrong more often than this has lost
 #: lock (a cycle slip or a decision-directed capture that the error cannot show): it counts as
 #: failed (common practice, no source: a known postamble as a check of the frame).

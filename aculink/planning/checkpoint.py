@@ -19,6 +19,8 @@ import numpy as np
 from aculink.errors import AculinkError
 from aculink.io.atomic import atomic_path, write_text_atomic
 
+__all__ = ["MANIFEST", "parts_folder", "settings_digest", "RULE", "Checkpoint"]
+
 MANIFEST = "manifest.json"
 _CHUNK = "chunk-{:06d}.npz"
 

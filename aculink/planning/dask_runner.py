@@ -28,6 +28,10 @@ from collections import deque
 
 from aculink.errors import AculinkError
 
+__all__ = ["CONNECT_TIMEOUT_S", "LOCAL_START_S", "POINT_S", "START_MARGIN", "machine_workers",
+           "check_workers", "check_scheduler_address", "local_workers_for", "RunStats", "register_warm_up",
+           "open_runner", "run_tasks"]
+
 #: Seconds to wait for an external scheduler before giving up.
 CONNECT_TIMEOUT_S = 5.0
 #: Seconds a local cluster takes to start, workers ready to run our tasks (10-15 s measured

@@ -30,6 +30,12 @@ import numpy as np
 
 from aculink.errors import AculinkError, check_range, closest
 
+__all__ = ["PRACTICAL_RECEIVERS", "DEFAULT_LADDER_STEPS", "DEFAULT_LADDER_RATIO", "CandidateGrid",
+           "candidate_symbol_rates", "resolve_receivers", "select_workable", "one_line",
+           "modem_required_snr_db", "evaluate_block", "predict_point", "modulation_bits", "spread_90_s",
+           "BAND_FREQUENCIES", "band_frequencies", "POINT_FIELDS", "CANDIDATE_FIELDS", "empty_block",
+           "evaluate_safely", "summarise_block"]
+
 #: What "all" receivers means: the ones a modem really runs (adaptive, trained). The modem
 #: stage's "mmse-dfe" is the design on a perfectly known channel, a bound rather than a
 #: receiver, so it is planned for only when named.

@@ -31,6 +31,11 @@ from aculink.planning.dataset import to_dataset
 from aculink.planning.progress import Progress
 from aculink.site.model import LIMITS as _LIMITS
 
+__all__ = ["CHUNK_POINTS", "Chunk", "SweepJob", "strictly_increasing", "check_geometry", "make_chunks",
+           "auto_chunk_ranges", "compute_chunk", "sweep_settings", "run_sweep", "check_sweep_output",
+           "may_replace_outputs", "warm_up", "prepare_job", "candidate_grid", "merge_chunks",
+           "report_failures"]
+
 #: Receiver positions per chunk the automatic chunking aims at: with the real stages this
 #: gives tasks of about a second, above the 0.5-1 s where Dask pays off on these machines
 #: (measured: about 19 ms of scheduling per task on 2 local workers).

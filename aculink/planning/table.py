@@ -17,6 +17,12 @@ from aculink.planning.dataset import to_dataset
 from aculink.site.model import LIMITS
 from aculink.planning.sweep import candidate_grid, check_geometry
 
+__all__ = ["ROW_KEYS", "VERIFY_KEYS", "VERDICTS", "UNCONFIRMED", "VERIFY_CONFIDENCE", "VERIFY_TOLERANCE_DB",
+           "VERIFY_FIRST_BATCHES", "VERIFY_FIRST_LOOK", "VERIFY_CAP_LOOKS", "VERIFY_CAP_BITS", "plan_rates",
+           "verify_bit_budget", "verify_plan", "with_verification", "receiver_seed", "run_batches",
+           "dispersion", "pooled_interval", "verify_verdict", "plan_rows", "envelope_km_kbps",
+           "SHELF_BREAK_M", "check_not_empty"]
+
 #: JSON/CSV keys of a table row, in order (dataset variable or coordinate of the same meaning).
 ROW_KEYS = ("range_m", "net_bit_rate_bps", "modulation", "symbol_rate_baud", "receiver",
             "snr_band_db", "snr_out_predicted_db", "ber_predicted", "margin_db", "spread_90_s", "tl_db")

@@ -6,6 +6,8 @@ import numpy as np
 
 from aculink.plots.style import PALETTE, figure, geometry_text, save, site_title, styled
 
+__all__ = ["plot_channel"]
+
 #: How many of the strongest arrivals get a bounce-history label.
 _LABELLED = 8
 _FLOOR_DB = 50.0

@@ -6,6 +6,8 @@ import numpy as np
 
 from aculink.plots.style import PALETTE, figure, geometry_text, save, site_title, styled
 
+__all__ = ["plot_link"]
+
 
 @styled
 def plot_link(result, path, *, site=None, channel=None, overwrite=False):

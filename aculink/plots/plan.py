@@ -8,6 +8,9 @@ from aculink.io.formats import ber_text
 from aculink.plots.style import (PALETTE, RATE_CMAP, SEABED_COLOUR, SOURCE_MARK, clip_to_water, figure, geometry_text, save,
                                  rate_axes, site_title, styled)
 
+__all__ = ["envelope_label", "plot_plan", "workable_text", "MAX_FACETS", "facet_values", "under_seabed",
+           "plot_rate_map"]
+
 
 def envelope_label(env_km_kbps, kind, ranges_km) -> str:
     """The legend words of the fielded-system envelope, readable at a glance: what the line is,

@@ -10,6 +10,10 @@ from __future__ import annotations
 import numpy as np
 import matplotlib
 
+__all__ = ["PALETTE", "FIELD_CMAP", "RATE_CMAP", "WATER_COLOUR", "SOURCE_MARK", "RECEIVER_MARK",
+           "SEABED_COLOUR", "figure", "styled", "site_title", "clip_to_water", "mark_equipment",
+           "equipment_labels", "rate_axes", "save"]
+
 matplotlib.use("Agg")  # files only; no screen is assumed
 
 import matplotlib.pyplot as plt  # noqa: E402

@@ -77,6 +77,11 @@ from aculink.propagation import _kernels as _k
 from aculink.propagation import _kernels_eigen as _ke
 from aculink.propagation.rays import check_angles, check_source_depth, prepare_medium, run_fan, step_budget
 
+__all__ = ["PRUNE_MARGIN_DB", "FAN_HALF_WIDTH_DEG", "SEARCH_HALF_WIDTH_DEG", "FAN_MAX_SPACING_DEG",
+           "FAN_MIN_SPACING_DEG", "REFERENCE_RANGE_M", "GAP_RAYS", "GAP_ROUNDS", "TUBE_WIDTH_FRACTION",
+           "TUBE_CHANGE", "NEWTON_STEPS", "REFINE_MODES", "default_angles_deg", "reference_range_m",
+           "search_angles_deg", "beam_floor_m", "find_arrivals", "solve_arrivals"]
+
 #: Arrivals predicted this far below the dynamic range are not refined, dB.
 PRUNE_MARGIN_DB = 10.0
 #: Fan of :func:`default_angles_deg` (the beam-TL fan): widest launch angle, deg.

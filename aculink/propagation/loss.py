@@ -38,6 +38,8 @@ from aculink.propagation import _kernels_beams as _kb
 from aculink.propagation.eigenrays import FAN_MAX_SPACING_DEG, _surface_factor
 from aculink.propagation.rays import MAX_LAUNCH_DEG, check_angles, check_source_depth, prepare_medium, run_fan
 
+__all__ = ["TL_CAP_DB", "MIN_BEAMS", "TINY_REFLECTION", "default_fan_deg", "transmission_loss"]
+
 #: TL reported where no beam reaches, dB re 1 m.
 TL_CAP_DB = 200.0
 #: Fewest beams in a default fan.

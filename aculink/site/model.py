@@ -16,6 +16,9 @@ import numpy as np
 from aculink.errors import AculinkError, check_range
 from aculink.site.profile import SoundSpeedProfile
 
+__all__ = ["LIMITS", "INTEGER_LIMITS", "MAX_DEPTH_M", "MAX_RANGE_M", "check_field", "Water", "Seabed",
+           "Surface", "Noise", "Source", "Receiver", "Modem", "Site"]
+
 #: Allowed ranges of every scalar field, as ``(low, high, low_open, high_open, unit)``. The
 #: loader and ``__post_init__`` both check against this table, so each range lives in one
 #: place; the README's site-file reference states the same numbers.
