@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import difflib
 import math
-from typing import Iterable
+from collections.abc import Iterable
 
 __all__ = ["AculinkError", "closest", "check_range", "check_int", "check_array", "validity_note"]
 

@@ -7,7 +7,6 @@ and a two-line conclusion. The steps call the same library functions as the othe
 
 from __future__ import annotations
 
-import sys
 import time
 from pathlib import Path
 

@@ -237,7 +237,6 @@ def mmse_dfe_design(q, n_ff: int, n_fb: int = 0, *, stride: int = 1, es: float =
     if not np.isfinite(noise_power) or noise_power < 0:
         raise AculinkError(f"noise autocorrelation at lag 0 = {noise_power:g}: must be a finite power >= 0")
     r_idx = np.arange(n_ff)
-    fb_max = int(fb.max(initial=0))
 
     def columns(t, js):
         idx = t + r_idx[:, None] + js[None, :] * stride

@@ -26,7 +26,7 @@ modulations", IEEE Trans. Commun. 50(7), 1074-1080, 2002.
 
 from __future__ import annotations
 
-from functools import lru_cache
+from functools import cache
 
 import numpy as np
 from scipy.special import erfc
@@ -43,7 +43,7 @@ def q_function(x):
     return 0.5 * erfc(np.asarray(x, dtype=float) / np.sqrt(2.0))
 
 
-@lru_cache(maxsize=None)
+@cache
 def _gauss_legendre():
     return np.polynomial.legendre.leggauss(_GL_NODES)
 
@@ -58,7 +58,7 @@ def _psk_tail(psi, es_n0):
     return (integrand @ w) * half / (2.0 * np.pi)
 
 
-@lru_cache(maxsize=None)
+@cache
 def _psk_distance_table(name):
     """Mean Hamming distance between the labels of points i sectors apart (i = 0..M-1)."""
     c = constellation(name)
@@ -85,7 +85,7 @@ def _psk_sector_probabilities(m, es_n0):
     return np.stack(out, axis=-1)
 
 
-@lru_cache(maxsize=None)
+@cache
 def _pam_gray_tables(side):
     gray = np.arange(side) ^ (np.arange(side) >> 1)
     k = side.bit_length() - 1

@@ -40,6 +40,8 @@ __all__ = ["TAIL_CHECK_SER", "clopper_pearson", "LinkResult", "doppler_bound", "
 TAIL_CHECK_SER = 0.5
 #: Outputs kept for the constellation picture.
 _KEEP_POINTS = 4000
+#: Default PLL damping factor 1/sqrt(2) (common practice for a second-order loop, no source).
+_CRITICAL_DAMPING = 1.0 / math.sqrt(2.0)
 
 
 def clopper_pearson(errors: int, trials: int, confidence: float = 0.95) -> tuple[float, float]:
@@ -195,7 +197,7 @@ def simulate_link(channel, *, symbol_rate_baud, modulation, receiver, budget=Non
                   rolloff=None, n_symbols=20000, max_errors=200, seed=0, algorithm="rls",
                   samples_per_symbol=4, n_training=None, n_payload=None, n_ff=None, n_fb=None,
                   sparse=False, n_sparse=None, forgetting=None, step_size=None, pll_bandwidth=None,
-                  pll_damping=1 / math.sqrt(2), doppler=0.0, carrier_hz=None, time_varying=True,
+                  pll_damping=_CRITICAL_DAMPING, doppler=0.0, carrier_hz=None, time_varying=True,
                   track_doppler=True, target_ber=None, max_doppler=None) -> LinkResult:
     """Simulate a single-carrier PSK/QAM link and count bit errors.
 

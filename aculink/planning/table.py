@@ -191,8 +191,9 @@ def verify_plan(site, ds, *, seed=0, max_bits=None, simulate=None):
             arrivals = find_arrivals(site, [r], [z], freq_hz=search.band_frequencies(site))
             channel = Channel.from_arrivals(arrivals, site, range_m=r, depth_m=z)
             budget = link_budget(site.with_geometry(range_m=r, depth_m=z), channel)
-            run = run_batches(lambda s, n_sym: simulate(channel, budget=budget, rolloff=site.modem.rolloff,
-                                                        n_symbols=n_sym, max_errors=10 ** 12, seed=s, **config),
+            run = run_batches(lambda s, n_sym, channel=channel, budget=budget, config=config: simulate(
+                channel, budget=budget, rolloff=site.modem.rolloff, n_symbols=n_sym, max_errors=10 ** 12, seed=s,
+                **config),
                               receiver_seed(seed, r, z), first_bits, cap, config["modulation"], target)
         except (AculinkError, ValueError, ArithmeticError, np.linalg.LinAlgError) as exc:
             verdicts[i], notes[i] = "error", f"Monte Carlo check failed: {search.one_line(exc)}"

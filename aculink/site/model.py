@@ -302,7 +302,7 @@ class Site:
                 f"[water] profile ends at {self.water.profile.max_depth_m:g} m but [seabed] depth_m reaches "
                 f"{self.seabed.max_depth_m:g} m: the profile must reach the deepest seabed point")
 
-    def with_geometry(self, *, range_m=None, depth_m=None, source_depth_m=None) -> "Site":
+    def with_geometry(self, *, range_m=None, depth_m=None, source_depth_m=None) -> Site:
         """A copy with the receiver moved and/or the source depth changed.
 
         The new values are checked against :data:`LIMITS` (finite, positive depth and range)
@@ -321,6 +321,6 @@ class Site:
             site = dataclasses.replace(site, source=dataclasses.replace(self.source, depth_m=float(source_depth_m)))
         return site
 
-    def replace(self, **sections) -> "Site":
+    def replace(self, **sections) -> Site:
         """A copy with whole sections replaced, e.g. ``site.replace(surface=Surface(10, 0.5))``."""
         return dataclasses.replace(self, **sections)

@@ -13,6 +13,8 @@ import math
 import numpy as np
 from scipy.optimize import brentq, minimize_scalar
 
+from aculink.cautions import CAUTION_LINE as CAUTION
+
 __all__ = ["profile_features", "summarize_site", "format_summary", "CAUTION", "GRAZING_ANGLES_DEG"]
 
 #: Grazing angles at which the bottom loss is listed, degrees.
@@ -25,8 +27,6 @@ FEATURE_TOLERANCE_MPS = 0.2
 #: Total speed spread below which a profile is called near isovelocity, m/s (common
 #: practice, no source).
 ISOVELOCITY_SPREAD_MPS = 1.0
-
-from aculink.cautions import CAUTION_LINE as CAUTION
 
 
 def _grid(bottom_m: float) -> np.ndarray:

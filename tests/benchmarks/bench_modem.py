@@ -18,7 +18,8 @@ import time
 import numpy as np
 
 if __package__ in (None, ""):  # run as a script from the checkout
-    import pathlib, sys
+    import pathlib
+    import sys
 
     sys.path.insert(0, str(pathlib.Path(__file__).resolve().parents[2]))
 

@@ -17,7 +17,6 @@ per-task overhead and the per-worker throughput (the figures the README's cluste
 from __future__ import annotations
 
 import gc
-import os
 import sys
 import tempfile
 import time

@@ -141,7 +141,7 @@ def test_tilt_bin_moments_against_scipy_truncnorm():
         dist = stats.truncnorm(0.0, t)
         edges = dist.ppf(np.linspace(0, 1, 5))
         for j in range(4):
-            num = integrate.quad(lambda x: x * x * dist.pdf(x), edges[j], edges[j + 1])[0]
+            num = integrate.quad(lambda x, dist=dist: x * x * dist.pdf(x), edges[j], edges[j + 1])[0]
             assert got[j] == pytest.approx(num / 0.25, rel=1e-6)
 
 

@@ -5,7 +5,6 @@ from __future__ import annotations
 import io
 import csv
 
-import numpy as np
 import pytest
 
 from aculink.errors import AculinkError
@@ -49,7 +48,7 @@ def test_table_is_aligned_and_marks_missing():
     cols = [("a", "name\nunit", ".1f"), ("b", "text", "")]
     text = format_table(cols, [{"a": 1.25, "b": "x"}, {"a": float("nan"), "b": None}])
     lines = text.splitlines()
-    assert len({len(l) for l in lines}) == 1
+    assert len({len(line) for line in lines}) == 1
     assert lines[-1].split() == ["-", "-"] and lines[-2].split() == ["1.2", "x"]
 
 

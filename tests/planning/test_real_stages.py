@@ -124,8 +124,8 @@ def test_cli_plan_table_json_csv_plot(capsys, tmp_path):
     assert all(keys <= set(r) for r in doc["rows"]) and "caution" in doc
     code, out, _ = run_cli(capsys, *args, "--csv", tmp_path / "t.csv", "--plot", tmp_path / "t.png")
     assert code == 0 and "Caution:" in out and "planning estimate" in out.lower()
-    lines = [l for l in out.splitlines() if l.strip()[:1].isdigit()]
-    assert len(lines) == 3 and len({len(l) for l in lines}) == 1
+    lines = [row for row in out.splitlines() if row.strip()[:1].isdigit()]
+    assert len(lines) == 3 and len({len(row) for row in lines}) == 1
     assert (tmp_path / "t.csv").read_text().splitlines()[0].startswith("range_m,net_bit_rate_bps")
     assert (tmp_path / "t.png").read_bytes()[:4] == b"\x89PNG"
     code, _, err = run_cli(capsys, *args, "--csv", tmp_path / "t.csv")

@@ -182,7 +182,7 @@ def test_verify_uses_the_given_simulator_and_stops_when_decided(site):
 
     for share, word in ((0.0, "agrees"), (0.25, "fails")):
         def fake(channel, *, n_symbols, modulation, **kw):
-            return Result(n_symbols, BITS[modulation], share)
+            return Result(n_symbols, BITS[modulation], share)  # noqa: B023 (called inside the loop)
 
         row = plan_rows(verify_plan(site, ds, seed=0, simulate=fake))[0]
         first, cap = verify_bit_budget(1e-4)

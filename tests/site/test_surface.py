@@ -81,7 +81,7 @@ def test_pm_table():
         assert significant_wave_height_pierson_moskowitz(u, height_m=19.5) * scale == (
             pytest.approx(hs, abs=5e-5 + 1e-9))
         peak = optimize.minimize_scalar(
-            lambda w: -pierson_moskowitz_spectrum(w, u, height_m=19.5),
+            lambda w, u=u: -pierson_moskowitz_spectrum(w, u, height_m=19.5),
             bounds=(0.05, 5.0), method="bounded", options={"xatol": 1e-10}).x
         assert peak / scale == pytest.approx(omega_p, abs=5e-4)
         assert 2 * np.pi / (peak / scale) == pytest.approx(t_p, abs=5e-3)
