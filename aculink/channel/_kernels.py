@@ -1,4 +1,8 @@
-"""Numba kernel for applying a time-varying sparse channel (no Python objects inside).
+"""Numba kernels of the channel stage (no Python objects inside).
+
+The frequency-response kernels at the end (:func:`transfer_sum`, :func:`fold_windows`,
+:func:`interpolate_rows`, :func:`scatter_windows`) serve :mod:`aculink.channel.response`; the rest
+applies a time-varying sparse channel.
 
 The signal to be delayed is given as the five branch outputs of a Farrow fractional-delay
 structure, ``v_m[i] = sum_k c[m, k] u[i + k]``, so that ``u(i + mu) = sum_m v_m[i] (mu - 1/2)^m``
@@ -178,12 +182,206 @@ def farrow_branches(x, c, out):
             row = out[m]
             for q in range(q0, q1):
                 row[np.uint64(q)] = 0.0
-            for l in range(n_taps):
-                coef = c[m, n_taps - 1 - l]
-                # x index q - l must lie in [0, n)
-                lo = max(q0, l)
-                hi = min(q1, n + l)
-                xs = x[lo - l:hi - l]
+            for lag in range(n_taps):
+                coef = c[m, n_taps - 1 - lag]
+                # x index q - lag must lie in [0, n)
+                lo = max(q0, lag)
+                hi = min(q1, n + lag)
+                xs = x[lo - lag:hi - lag]
                 rs = row[lo:hi]
                 for k in range(hi - lo):
                     rs[k] += coef * xs[k]
+
+
+# --------------------------------------------------------------------- frequency responses
+#: Flags of the frequency-response kernels: no approximate functions (the seeds' sin/cos must
+#: be exact to rounding), reassociation so that the sum over paths vectorises.
+_SUM_FLAGS = {"nsz", "arcp", "contract", "reassoc"}
+#: Frequencies per run of the phasor recurrence (one exact sin/cos per path and run).
+RUN_FREQS = 64
+
+
+@njit(cache=True, error_model="numpy")
+def interpolate_rows(gr, gi, i0, w, out):
+    """``out[p, q] = g[p, i0[q]] (1 - w[q]) + g[p, i0[q] + 1] w[q]`` with ``g = gr + j gi``.
+
+    The same arithmetic as the numpy form in :func:`aculink.channel.response.interpolate_gain`
+    (no fused operations), written straight into ``out`` (P, Q) complex without the
+    temporaries of fancy indexing.
+    """
+    n_p, n_q = out.shape
+    for p in range(n_p):
+        for q in range(n_q):
+            k = i0[q]
+            wq = w[q]
+            vq = 1.0 - wq
+            out[p, q] = complex(gr[p, k] * vq + gr[p, k + 1] * wq, gi[p, k] * vq + gi[p, k + 1] * wq)
+
+
+@njit(cache=True, error_model="numpy", fastmath=_SUM_FLAGS)
+def _accumulate_run(er, ei, sr, si, ga_r, ga_i, dg_r, dg_i, w, k0, k1, out):
+    # H(f_k) = sum_p (ga_p + w_k dg_p) e_p, then e_p *= s_p: one complex rotation per term
+    n_p = er.size
+    for k in range(k0, k1):
+        wk = w[k]
+        acc_r = 0.0
+        acc_i = 0.0
+        for p in range(n_p):
+            g_r = ga_r[p] + wk * dg_r[p]
+            g_i = ga_i[p] + wk * dg_i[p]
+            e_r = er[p]
+            e_i = ei[p]
+            acc_r += g_r * e_r - g_i * e_i
+            acc_i += g_r * e_i + g_i * e_r
+            er[p] = e_r * sr[p] - e_i * si[p]
+            ei[p] = e_r * si[p] + e_i * sr[p]
+        out[k] = complex(acc_r, acc_i)
+
+
+@njit(cache=True, error_model="numpy")
+def transfer_sum(delay, gr_t, gi_t, i0, w, freq, freq_tol, out):
+    """``out[q] = sum_p g_p(f_q) exp(-j 2 pi f_q tau_p)``, g linear between grid columns.
+
+    Parameters
+    ----------
+    delay : (P,) float64
+    gr_t, gi_t : (F, P) float64
+        Real and imaginary gains, grid column by row (F >= 2: a one-point grid is padded).
+    i0, w : (Q,) int64, float64
+        Interpolation index and weight of each frequency
+        (:func:`aculink.channel.response.interpolation_weights`).
+    freq : (Q,) float64
+        Frequencies, Hz, in any order.
+    freq_tol : float
+        Largest departure (Hz) of a frequency from a straight line through its run that still
+        lets the run use the recurrence.
+    out : (Q,) complex128
+
+    Notes
+    -----
+    Frequencies are taken in runs of up to :data:`RUN_FREQS`. A run that lies on a uniform
+    grid (every f_q within ``freq_tol`` of ``f_a + (q - a) df``, as for a linspace) seeds the
+    phasors ``exp(-j 2 pi f_a tau_p)`` exactly and advances them by the rotation
+    ``exp(-j 2 pi df tau_p)``: P sin/cos pairs per run instead of per frequency, rounding
+    growing by about 2 eps per step (1e-14 over a run), and a phase error of at most
+    ``2 pi tau freq_tol`` from the straight line. Other runs are halved until uniform (a run
+    of one frequency is exact).
+    """
+    n_p = delay.size
+    n_q = freq.size
+    two_pi = 2.0 * np.pi
+    er = np.empty(n_p)
+    ei = np.empty(n_p)
+    sr = np.empty(n_p)
+    si = np.empty(n_p)
+    ga_r = np.empty(n_p)
+    ga_i = np.empty(n_p)
+    dg_r = np.empty(n_p)
+    dg_i = np.empty(n_p)
+    seg = -1
+    q = 0
+    while q < n_q:
+        n = min(RUN_FREQS, n_q - q)
+        # the longest uniform run from q, also on one gain segment (halving)
+        while n > 1:
+            df = (freq[q + n - 1] - freq[q]) / (n - 1)
+            # (a NaN frequency fails every test, so it ends up alone in a run of one)
+            ok = i0[q + n - 1] == i0[q] and np.isfinite(df)
+            if ok:
+                for k in range(1, n - 1):
+                    if not abs(freq[q + k] - (freq[q] + k * df)) <= freq_tol or i0[q + k] != i0[q]:
+                        ok = False
+                        break
+            if ok:
+                break
+            n = n // 2
+        df = (freq[q + n - 1] - freq[q]) / (n - 1) if n > 1 else 0.0
+        if i0[q] != seg:
+            seg = i0[q]
+            for p in range(n_p):
+                ga_r[p] = gr_t[seg, p]
+                ga_i[p] = gi_t[seg, p]
+                dg_r[p] = gr_t[seg + 1, p] - gr_t[seg, p]
+                dg_i[p] = gi_t[seg + 1, p] - gi_t[seg, p]
+        for p in range(n_p):
+            ph = -two_pi * (delay[p] * freq[q])
+            er[p] = np.cos(ph)
+            ei[p] = np.sin(ph)
+            st = -two_pi * (delay[p] * df)
+            sr[p] = np.cos(st)
+            si[p] = np.sin(st)
+        _accumulate_run(er, ei, sr, si, ga_r, ga_i, dg_r, dg_i, w, q, q + n, out)
+        q += n
+
+
+@njit(cache=True, error_model="numpy")
+def fold_windows(eps, g, q, weight, n, out):
+    """``out[p, q mod n] += g[p, k] weight[k] exp(2 pi j (eps_p - n/2) q_k / n)`` for each k.
+
+    Along consecutive integers ``q`` the phasor ``exp(2 pi j eps_p q / n)`` advances by the
+    rotation ``exp(2 pi j eps_p / n)`` per bin, reseeded exactly every :data:`RUN_FREQS` bins
+    and at any gap in ``q``; the factor ``exp(-j pi q)`` of the half-window shift is ``(-1)^q``
+    (n even).
+    """
+    n_p, n_k = g.shape
+    two_pi = 2.0 * np.pi
+    for p in range(n_p):
+        st = two_pi * eps[p] / n
+        s_r = np.cos(st)
+        s_i = np.sin(st)
+        e_r = 1.0
+        e_i = 0.0
+        for k in range(n_k):
+            qk = q[k]
+            if k % RUN_FREQS == 0 or qk != q[k - 1] + 1:
+                ph = two_pi * ((eps[p] * qk) / n)
+                e_r = np.cos(ph)
+                e_i = np.sin(ph)
+            sign = 1.0 if qk % 2 == 0 else -1.0
+            gw = g[p, k] * weight[k]
+            v_r = (gw.real * e_r - gw.imag * e_i) * sign
+            v_i = (gw.real * e_i + gw.imag * e_r) * sign
+            b = qk % n
+            out[p, b] = out[p, b] + complex(v_r, v_i)
+            t = e_r * s_r - e_i * s_i
+            e_i = e_r * s_i + e_i * s_r
+            e_r = t
+
+
+#: Taps of the Farrow structure (fixed at compile time so the tap loop unrolls).
+FARROW_TAPS = 16
+
+
+@njit(cache=True, error_model="numpy", fastmath=_FLAGS)
+def farrow_correlate(xp, c, out):
+    """``out[m, q] = sum_j c[m, j] xp[q + j]`` for q in [0, out.shape[1]), j in [0, FARROW_TAPS).
+
+    With ``xp`` the input padded by ``FARROW_TAPS - 1`` zeros on each side this is
+    ``numpy.convolve(x, c[m, ::-1])`` for each m (the full convolution). Cache-sized blocks of
+    the output, each row in one pass with the taps in registers (one load of the input per
+    multiply-add instead of a load and a store of the output too).
+    """
+    n_rows = c.shape[0]
+    n_full = out.shape[1]
+    blk = 4096
+    for q0 in range(0, n_full, blk):
+        q1 = min(q0 + blk, n_full)
+        for m in range(n_rows):
+            row = out[m]
+            for q in range(q0, q1):
+                uq = np.uint64(q)
+                acc = xp[uq] * c[m, 0]
+                for j in range(1, FARROW_TAPS):
+                    acc += xp[uq + np.uint64(j)] * c[m, j]
+                row[uq] = acc
+
+
+@njit(cache=True, error_model="numpy")
+def scatter_windows(offset, values, dense):
+    """``dense[offset[p] + k] += values[p, k]`` for every path p and window sample k (in path
+    order, so each sample sums its paths in the order of the rows)."""
+    n_p, n = values.shape
+    for p in range(n_p):
+        o = offset[p]
+        for k in range(n):
+            dense[o + k] += values[p, k]

@@ -29,6 +29,7 @@ from __future__ import annotations
 import functools
 
 import numpy as np
+from scipy import fft as sp_fft
 from scipy import signal
 
 from aculink.channel import _kernels
@@ -38,7 +39,7 @@ from aculink.errors import AculinkError, check_range
 
 #: Farrow fractional-delay design: taps, Kaiser window shape (about 1e-4 rms error for
 #: signals up to 0.35 of the sample rate, measured against exact band-limited tones).
-FARROW_TAPS = 16
+FARROW_TAPS = _kernels.FARROW_TAPS
 FARROW_KAISER_BETA = 8.0
 #: Largest rms phase advance 2 pi nu_rms dt of a scattered gain between two control samples,
 #: rad. Linear interpolation of a process with a Gaussian Doppler spectrum of rms width nu_rms
@@ -50,7 +51,7 @@ _MAX_CONTROL_PHASE_STEP = 0.08
 _MAX_BLOCK, _BLOCK_STEP = 256, 16
 
 
-@functools.lru_cache(maxsize=None)
+@functools.cache
 def farrow_coefficients():
     """``(k, c)``: tap offsets k (K,) and coefficients c (M+1, K) of the Farrow structure.
 
@@ -183,19 +184,63 @@ def control_block(channel, sample_rate_hz):
     return block
 
 
+#: FFT length of the prefilter's overlap-add (at least 4 prefilter lengths): measured fastest of
+#: 2048-8192 for 512 taps on 1e6 samples, and 30 % faster than scipy.signal.oaconvolve there.
+_PREFILTER_FFT = 8192
+
+
+def prefilter_convolve(x, taps):
+    """Full convolution of ``x`` with ``taps`` in single precision (complex64), by FFT overlap-add.
+
+    Blocks of ``L = nfft - len(taps) + 1`` input samples are transformed together (one batched
+    FFT along the rows) and each block's tail of ``len(taps) - 1`` samples is added to the start
+    of the next; the same result as ``scipy.signal.oaconvolve`` on complex64 to its rounding
+    (about 1e-7 relative, tested), with fewer passes over the data.
+    """
+    x = np.asarray(x)
+    h = np.asarray(taps, dtype=np.complex64)
+    m = h.size
+    if x.size == 0 or m == 0:
+        return signal.oaconvolve(x.astype(np.complex64), h)
+    n_full = x.size + m - 1
+    nfft = max(_PREFILTER_FFT, 1 << int(np.ceil(np.log2(4 * m))))
+    nfft = min(nfft, max(1 << int(np.ceil(np.log2(n_full))), 1 << int(np.ceil(np.log2(2 * m)))))
+    block = nfft - m + 1
+    nb = -(-x.size // block)
+    xb = np.zeros((nb, block), dtype=np.complex64)
+    xb.reshape(-1)[:x.size] = x
+    spec = sp_fft.fft(xb, nfft, axis=1)
+    spec *= sp_fft.fft(h, nfft)
+    yb = sp_fft.ifft(spec, axis=1, overwrite_x=True)
+    out = np.zeros((nb + 1, block), dtype=np.complex64)
+    out[:nb] = yb[:, :block]
+    out[1:, :m - 1] += yb[:, block:]      # m - 1 <= block since nfft >= 2 m - 2
+    return out.reshape(-1)[:n_full]
+
+
 def farrow_input(x, taps, c):
     """Farrow branches (float32 real and imaginary parts) of the prefiltered input.
 
-    The prefilter runs as a single-precision FFT convolution and the branches in float32: the
-    kernel's work per sample is in float32 (twice the SIMD lanes of float64; rounding about 1e-7,
-    far below the interpolator's 1e-4).
+    The prefilter runs as a single-precision FFT convolution (:func:`prefilter_convolve`) and
+    the branches in float32: the kernel's work per sample is in float32 (twice the SIMD lanes of
+    float64; rounding about 1e-7, far below the interpolator's 1e-4).
     """
-    u = signal.oaconvolve(x.astype(np.complex64), taps.astype(np.complex64))
+    u = prefilter_convolve(x, taps)
     c32 = np.ascontiguousarray(c, dtype=np.float32)
-    vr = np.empty((c.shape[0], u.size + c.shape[1] - 1), dtype=np.float32)
+    n_taps = c.shape[1]
+    vr = np.empty((c.shape[0], u.size + n_taps - 1), dtype=np.float32)
     vi = np.empty_like(vr)
-    _kernels.farrow_branches(np.ascontiguousarray(u.real), c32, vr)
-    _kernels.farrow_branches(np.ascontiguousarray(u.imag), c32, vi)
+    if n_taps != _kernels.FARROW_TAPS:
+        _kernels.farrow_branches(np.ascontiguousarray(u.real), c32, vr)
+        _kernels.farrow_branches(np.ascontiguousarray(u.imag), c32, vi)
+        return vr, vi
+    # zero-padded copies of the two parts: the branches are then plain correlations
+    pad = n_taps - 1
+    xp = np.zeros(u.size + 2 * pad, dtype=np.float32)
+    xp[pad:pad + u.size] = u.real
+    _kernels.farrow_correlate(xp, c32, vr)
+    xp[pad:pad + u.size] = u.imag
+    _kernels.farrow_correlate(xp, c32, vi)
     return vr, vi
 
 

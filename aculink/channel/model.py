@@ -64,6 +64,29 @@ def _check_band(carrier_hz, bandwidth_hz):
     return fc, b
 
 
+class _ResponseCache(dict):
+    """Last few transfer functions of one Channel, keyed by their frequency grid's bytes.
+
+    Pickles empty (a channel sent to a worker does not carry it) and is not copied by
+    ``dataclasses.replace`` (a new channel starts without it). Entries are limited in number and
+    size, so a long-lived channel asked for many grids holds a few MB at most.
+    """
+
+    MAX_ENTRIES = 8
+    MAX_POINTS = 1 << 16
+
+    def __reduce__(self):
+        return (_ResponseCache, ())
+
+    def put(self, key, value):
+        if value.size > self.MAX_POINTS:
+            return
+        while len(self) >= self.MAX_ENTRIES:
+            # oldest first; pop with a default so threads sharing a channel cannot trip each other
+            self.pop(next(iter(self), None), None)
+        self[key] = value
+
+
 @dataclass(frozen=True, eq=False)
 class Channel:
     """Sparse multipath channel over a modem band (see the module docstring).
@@ -218,11 +241,13 @@ class Channel:
         """
         r = site.receiver.range_m if range_m is None else float(range_m)
         z = site.receiver.depth_m if depth_m is None else float(depth_m)
-        sel = arrivals
+        pick = {}
         if "range" in arrivals.dims:
-            sel = sel.isel(range=int(np.argmin(np.abs(np.atleast_1d(arrivals["range"].values) - r))))
+            pick["range"] = int(np.argmin(np.abs(np.atleast_1d(arrivals["range"].values) - r)))
         if "depth" in arrivals.dims:
-            sel = sel.isel(depth=int(np.argmin(np.abs(np.atleast_1d(arrivals["depth"].values) - z))))
+            pick["depth"] = int(np.argmin(np.abs(np.atleast_1d(arrivals["depth"].values) - z)))
+        # one isel for both dimensions (each isel walks every variable of the dataset)
+        sel = arrivals.isel(pick) if pick else arrivals
         r = float(sel["range"].values) if "range" in sel.coords else r
         z = float(sel["depth"].values) if "depth" in sel.coords else z
         delay = np.atleast_1d(sel["delay_s"].values).astype(float)
@@ -281,7 +306,7 @@ class Channel:
         return moving or rough
 
     @property
-    def fluctuation(self) -> "Fluctuation":
+    def fluctuation(self) -> Fluctuation:
         """Per-path time-variation model for predictions: steady fraction and Doppler width.
 
         Steady (coherent) paths: fraction 1, width 0. Scattered sub-paths: fraction 0 (zero-mean
@@ -344,10 +369,24 @@ class Channel:
         if self.is_empty:
             h = np.zeros(f.shape, dtype=complex)
         else:
-            h = np.einsum("pq,pq->q", self.gain_at(f), np.exp(-2j * np.pi * np.outer(self.delay_s, f)))
+            h = self._transfer_values(f)
         return xr.DataArray(h, dims="frequency", coords={"frequency": ("frequency", f, {"units": "Hz", "long_name": "frequency"})},
                             name="transfer_function",
                             attrs={"units": "1", "long_name": "channel transfer function H(f), pressure re 1 m"})
+
+    def _transfer_values(self, f):
+        """H at ``f`` (any shape) as a new array; the last few grids asked for are kept on the
+        object (a planner asks for the same band grid at every symbol rate)."""
+        cache = self.__dict__.get("_transfer_cache")
+        if cache is None:
+            cache = _ResponseCache()
+            object.__setattr__(self, "_transfer_cache", cache)  # a cache, not a field of the frozen Channel
+        key = (f.shape, f.tobytes())
+        h = cache.get(key)
+        if h is None:
+            h = _resp.transfer_sum(self.delay_s, self.gain, self.freq_hz, f.ravel()).reshape(f.shape)
+            cache.put(key, h)
+        return h.copy()
 
     def _windows(self, sample_rate_hz, spectrum, support_hz, n_window):
         return _resp.path_windows(self.delay_s, self.gain, self.freq_hz, self.carrier_hz,

@@ -78,7 +78,9 @@ def test_two_path_image_channel_taps_and_phase(calm_site):
     np.testing.assert_allclose(ch.gain[:, 0], amps, rtol=1e-12)
     f = np.linspace(FC - B / 2, FC + B / 2, 11)
     h_exact = (amps[:, None] * np.exp(-2j * np.pi * np.outer(ch.delay_s, f))).sum(axis=0)
-    np.testing.assert_allclose(ch.transfer_function(f).values, h_exact, rtol=1e-12)
+    # float64 phases 2 pi f tau (~5e4 rad here) carry ~eps * 5e4 = 1e-11 rad of rounding in any
+    # evaluation, this reference's included: agreement is checked to 1e-10
+    np.testing.assert_allclose(ch.transfer_function(f).values, h_exact, rtol=1e-10)
     rs, beta, sps = 4000.0, 0.35, 4
     taps, first = ch.symbol_taps(rs, beta, sps, trim=0.0)
     t = first + np.arange(taps.size) / (rs * sps)
