@@ -33,17 +33,27 @@ of at most ``ds``:
   accepted) give with the RK4 stages an embedded third-order solution; the difference h/6 (k4 - k5)
   estimates the local error ([Hairer1993] sect. II.4). Positions, c times the travel time and the
   maximum step times the ray angle are held to ``tol`` metres per step; a step over it is retried
-  shorter, and the proposal doubles or halves with the thresholds of the (1/err)^(1/4) rule.
-* **Snell projection.** After every step zeta is put back on xi^2 + zeta^2 = 1/c(z)^2 (a
-  projection method, [Hairer2006] sect. IV.4). The drift off it is tiny per step, but it moves the
-  turning depth of a ray that turns in a weak gradient (a summer mixed layer), and the cycle phase
-  error grows with every cycle: in the bundled summer-shelf cast with 5 m steps the projection takes
-  the travel-time error at 10 km from 4.2 us (99th percentile; 39 us worst) to 0.04 us (measured
-  in tests/benchmarks/bench_rays.py).
-* **Profile knots.** Every step stays inside one cubic piece of the profile: it is shortened to end
-  on the next knot (predicted from the quadratic Taylor expansion of z(s)), because d2c/dz2 of the
-  C1 profile jumps at knots and a step straddling one loses RK4's order (measured: 15 us instead of
-  0.02 us of travel-time error at 4 km, and 10% errors in the spreading).
+  shorter, and the proposal doubles or halves with the thresholds of the (1/err)^(1/4) rule (the
+  usual case, a full step below the halving threshold, is tested first and leaves the proposal
+  alone, so the next step does not wait on the estimate).
+* **Snell projection.** zeta is put back on xi^2 + zeta^2 = 1/c(z)^2 (a projection method,
+  [Hairer2006] sect. IV.4) by one Newton step (no square root), applied one step late so that its
+  division is not on the path from one step to the next (events project at once). The drift off it
+  is tiny per step, but it moves the turning depth of a ray that turns in a weak gradient (a summer
+  mixed layer), and the cycle phase error grows with every cycle: in the bundled summer-shelf cast
+  with 5 m steps the projection takes the travel-time error at 10 km from 4.2 us (99th percentile;
+  39 us worst) to 0.04 us (measured in tests/benchmarks/bench_rays.py).
+* **Profile knots.** Each RK stage evaluates the cubic piece holding its own depth, within a run of
+  pieces a step may cross (:func:`landing_pieces`); a step is shortened to end on the knot closing
+  the run (predicted from the quadratic Taylor expansion of z(s)) where the profile's smoothness
+  breaks: dc/dz jumps (piecewise linear, C0) or d2c/dz2 jumps (PCHIP, C1). The C1 case matters too:
+  d2c/dz2 drives the dynamic rays, and the embedded error estimate is blind to a kink crossed inside
+  a step (for a quadrature-like equation k4 = k5). Measured on the summer-shelf cast (1 m knots) with
+  5 m steps crossing them (tests/benchmarks/bench_rays.py [1b]): 2178 instead of 3229 steps per ray,
+  but travel-time errors of 18 us (median) and 370 us (99th percentile) at 10 km and errors in
+  dz/dtheta0 of 18% of its rms over the fan (median), against 0.011 us, 0.037 us and 0.07% when
+  landing. Smooth (C2) joins are crossed. The piece after a knot a step landed on is known, so it
+  is taken without a search.
 * **Events.** Boundaries, turning points, seabed vertices and receiver ranges are *events*: when a
   trial step crosses one, the crossing is found on the step's cubic Hermite interpolant (dense
   output from both end points' rates, [Hairer1993] sect. II.6) and the step is redone once to that
@@ -102,8 +112,40 @@ N_INFO = 7
 #: The medium as the kernels read it (a namedtuple of arrays and numbers; numba passes it whole).
 #: ``ab_db`` is (n_freq, n_bins): absorption in dB/m per depth bin for each frequency; the loss at
 #: frequency m > 0 goes to record column :func:`abs_column` (m).
+#: ``piece_lo[i]``, ``piece_hi[i]``: the first and last piece of the run of pieces around piece i
+#: that a step may cross without landing on a knot (see :func:`landing_pieces`).
 KernelMedium = namedtuple("KernelMedium", ["knots", "coef", "bed_r", "bed_z", "bed_slope", "bt_step", "bt_re",
-                                           "bt_im", "ab_dz", "ab_db", "ds", "tol", "floor_mag"])
+                                           "bt_im", "ab_dz", "ab_db", "ds", "tol", "floor_mag", "piece_lo",
+                                           "piece_hi"])
+
+
+def landing_pieces(knots, coef, rel_tol=1e-9):
+    """Runs of profile pieces a step may cross: ``(piece_lo, piece_hi)``, int arrays per piece.
+
+    A step lands on every knot where the profile's smoothness breaks: where dc/dz jumps (a
+    piecewise-linear profile, C0), a step across it loses RK4's order in the ray equations; where
+    only d2c/dz2 jumps (PCHIP, C1), the ray equations keep a continuous right-hand side but the
+    dynamic rays (driven by d2c/dz2) do not, and the embedded error estimate does not see it
+    (measured on the summer-shelf cast: crossing those knots with 5 m steps gives 10 us travel-time
+    and 10% spreading errors at 10 km, tests/benchmarks/bench_rays.py). Across the remaining knots
+    (a C2 profile, or pieces joined smoothly) a step crosses, each RK stage evaluating the piece
+    holding its own depth. A jump counts when it exceeds ``rel_tol`` times the largest |dc/dz|
+    (or |d2c/dz2|) of the profile: smooth joins match to rounding.
+    """
+    knots = np.asarray(knots, dtype=float)
+    coef = np.asarray(coef, dtype=float)
+    n = coef.shape[0]
+    h = np.diff(knots)
+    slope_end = coef[:, 1] + h * (2.0 * coef[:, 2] + 3.0 * h * coef[:, 3])
+    czz_end = 2.0 * coef[:, 2] + 6.0 * h * coef[:, 3]
+    scale1 = max(float(np.max(np.abs(coef[:, 1]))), float(np.max(np.abs(slope_end))), 1e-30)
+    scale2 = max(float(np.max(np.abs(2.0 * coef[:, 2]))), float(np.max(np.abs(czz_end))), 1e-30)
+    kink = np.zeros(n + 1, dtype=bool)  # kink[k]: knot k ends a run
+    kink[1:n] = (np.abs(slope_end[:-1] - coef[1:, 1]) > rel_tol * scale1) | (
+        np.abs(czz_end[:-1] - 2.0 * coef[1:, 2]) > rel_tol * scale2)
+    start = np.maximum.accumulate(np.where(kink[:n], np.arange(n), 0))
+    stop = np.minimum.accumulate(np.where(kink[1:], np.arange(n), n - 1)[::-1])[::-1]
+    return np.ascontiguousarray(start, dtype=np.int64), np.ascontiguousarray(stop, dtype=np.int64)
 
 
 def record_width(n_freq):
@@ -132,6 +174,9 @@ _HERMITE_TOL_M = 1e-12  # along the path
 # a ray this close (along its path) to the knot it is heading to is taken to be on it: a step that
 # aimed at a knot ends within about 1e-5 m of it, and straddling it by so little costs nothing
 _KNOT_MIN_STEP_M = 1e-3
+# a step aimed at a knot that ends this close to it (in depth) is on it: the next step starts in the
+# piece past it without a search
+_KNOT_HIT_M = 1e-4
 # step control: never below this step (m), shrink/grow factors per step and the safety factor
 _H_MIN_M = 1e-3
 _SHRINK_MIN, _SAFETY = 0.2, 0.9
@@ -172,28 +217,45 @@ def _rates(c, cz, czz, inv, zeta, dz, dzeta, xi, dxi):
     return c * xi, c * zeta, fzeta, inv, fdx, fdz, fdzeta, fzeta * dz
 
 
+@nb.njit(cache=True, inline="always", error_model="numpy")
+def _piece_at(z, knots, piece, plo, phi):
+    """Profile piece holding depth ``z``, walking from ``piece`` but kept inside [plo, phi] (the pieces
+    between the landing knots around the step: a stage a hair past a kink stays on its side)."""
+    while piece > plo and z < knots[piece]:
+        piece -= 1
+    while piece < phi and z >= knots[piece + 1]:
+        piece += 1
+    return piece
+
+
 @nb.njit(cache=True, fastmath=_FAST, error_model="numpy")
-def _rhs(z, zeta, dz, dzeta, xi, dxi, knots, coef, piece):
-    """:func:`_rates` at one state (profile piece fixed), then c, dc/dz, d2c/dz2 there."""
+def _rhs(z, zeta, dz, dzeta, xi, dxi, knots, coef, piece, plo, phi):
+    """:func:`_rates` at one state, then c, dc/dz, d2c/dz2 there and the profile piece used (the one
+    holding z within [plo, phi], found from ``piece``)."""
+    piece = _piece_at(z, knots, piece, plo, phi)
     c, cz, czz = _eval_piece(z, knots, coef, piece)
     inv = 1.0 / c
     fx, fz, fe, ft, fa, fb, fc, fd = _rates(c, cz, czz, inv, zeta, dz, dzeta, xi, dxi)
-    return fx, fz, fe, ft, fa, fb, fc, fd, c, cz, czz
+    return fx, fz, fe, ft, fa, fb, fc, fd, c, cz, czz, piece
 
 
 @nb.njit(cache=True, fastmath=_FAST, error_model="numpy")
 def _rk4(x, z, zeta, t, dx, dz, dzeta, dt, xi, dxi, h, k1x, k1z, k1e, k1t, k1a, k1b, k1c, k1d, knots, coef,
-         piece):
-    """One classical RK4 step of length h (arc length, m), given the first stage ``k1``; every stage
-    uses profile piece ``piece``, the one the step lies in. Returns the new state and the last stage's
-    (dx/ds, dz/ds, dzeta/ds, dt/ds), which the error estimate needs."""
+         piece, plo, phi):
+    """One classical RK4 step of length h (arc length, m), given the first stage ``k1``; each stage
+    evaluates the profile piece holding its own depth (searched from ``piece``, the step's first
+    piece, within [plo, phi]), so a step may cross knots where the profile is C1. Returns the new
+    state and the last stage's (dx/ds, dz/ds, dzeta/ds, dt/ds), which the error estimate needs."""
     hh = 0.5 * h
-    k2x, k2z, k2e, k2t, k2a, k2b, k2c, k2d, _, _, _ = _rhs(z + hh * k1z, zeta + hh * k1e, dz + hh * k1b,
-                                                             dzeta + hh * k1c, xi, dxi, knots, coef, piece)
-    k3x, k3z, k3e, k3t, k3a, k3b, k3c, k3d, _, _, _ = _rhs(z + hh * k2z, zeta + hh * k2e, dz + hh * k2b,
-                                                             dzeta + hh * k2c, xi, dxi, knots, coef, piece)
-    k4x, k4z, k4e, k4t, k4a, k4b, k4c, k4d, _, _, _ = _rhs(z + h * k3z, zeta + h * k3e, dz + h * k3b,
-                                                             dzeta + h * k3c, xi, dxi, knots, coef, piece)
+    k2x, k2z, k2e, k2t, k2a, k2b, k2c, k2d, _, _, _, p2 = _rhs(z + hh * k1z, zeta + hh * k1e, dz + hh * k1b,
+                                                              dzeta + hh * k1c, xi, dxi, knots, coef, piece,
+                                                              plo, phi)
+    k3x, k3z, k3e, k3t, k3a, k3b, k3c, k3d, _, _, _, p3 = _rhs(z + hh * k2z, zeta + hh * k2e, dz + hh * k2b,
+                                                              dzeta + hh * k2c, xi, dxi, knots, coef, p2,
+                                                              plo, phi)
+    k4x, k4z, k4e, k4t, k4a, k4b, k4c, k4d, _, _, _, _ = _rhs(z + h * k3z, zeta + h * k3e, dz + h * k3b,
+                                                             dzeta + h * k3c, xi, dxi, knots, coef, p3,
+                                                             plo, phi)
     w = h * (1.0 / 6.0)
     x1 = x + w * (k1x + 2.0 * (k2x + k3x) + k4x)
     z1 = z + w * (k1z + 2.0 * (k2z + k3z) + k4z)
@@ -233,11 +295,28 @@ def _next_step(err, hstep, hctl, ds):
     would still pass with the safety factor, and a step (full or cut short by a knot or an event)
     that came close to the tolerance halves the proposal.
     """
+    # the usual case (a full step at the largest step, or in between the thresholds) tested first and
+    # leaving hctl alone, so that the next step does not wait on the error estimate
+    if hctl == ds and err <= _HALVE_ABOVE:
+        return hctl
     if err > _HALVE_ABOVE:
         return min(hctl, 0.5 * hstep)
     if err < _DOUBLE_BELOW and hstep >= hctl * (1.0 - 1e-12):
         return min(ds, 2.0 * hstep)
     return hctl
+
+
+@nb.njit(cache=True, inline="always", error_model="numpy")
+def _toward_root(a, b, dz, hmax):
+    """Smallest root h in (0, hmax] of b h^2 + a h = dz when a dz >= 0 (the ray heading to the depth
+    dz away), or -1 when there is none: 2 dz / (a + sign(a) sqrt(a^2 + 4 b dz)), the form without
+    cancellation (one square root and one division instead of the general search's two)."""
+    disc = a * a + 4.0 * b * dz
+    if disc < 0.0:
+        return -1.0
+    sq = math.sqrt(disc)
+    h = 2.0 * dz / (a + sq) if a > 0.0 else 2.0 * dz / (a - sq)
+    return h if 0.0 < h <= hmax else -1.0
 
 
 @nb.njit(cache=True, inline="always", error_model="numpy")
@@ -299,30 +378,33 @@ def _hermite(u, h, y0, y1, f0, f1):
 
 
 @nb.njit(cache=True, error_model="numpy")
-def _hermite_root(kind, h, x0, z0, e0, x1, z1, e1, k1x, k1z, k1e, f1x, f1z, f1e, bz0, bsl, bx0, x_ev):
-    """Arc length in (0, h] where the event value crosses zero on the step's cubic Hermite interpolant
-    (safeguarded Newton; the value changes sign over the step)."""
-    g0 = _event_value(kind, x0, z0, e0, bz0, bsl, bx0, x_ev)
+def _hermite_root(h, x0, z0, e0, x1, z1, e1, k1x, k1z, k1e, f1x, f1z, f1e, ax, az, ae, g_off):
+    """Arc length in (0, h] where the event value g = ax x + az z + ae zeta - g_off crosses zero on the
+    step's cubic Hermite interpolant (safeguarded Newton; the value changes sign over the step).
+
+    Every event is linear in (x, z, zeta) (see :func:`_first_event`), so one compiled function (all
+    arguments floats) serves them all."""
+    g0 = ax * x0 + az * z0 + ae * e0 - g_off
     if g0 == 0.0:
         return 0.0
     lo = 0.0
     hi = 1.0
     u = 0.5
-    g1 = _event_value(kind, x1, z1, e1, bz0, bsl, bx0, x_ev)
+    g1 = ax * x1 + az * z1 + ae * e1 - g_off
     if g1 != g0:
         u = min(max(g0 / (g0 - g1), 0.0), 1.0)
     for _ in range(_HERMITE_ITERATIONS):
         xv, xd = _hermite(u, h, x0, x1, k1x, f1x)
         zv, zd = _hermite(u, h, z0, z1, k1z, f1z)
         ev, ed = _hermite(u, h, e0, e1, k1e, f1e)
-        g = _event_value(kind, xv, zv, ev, bz0, bsl, bx0, x_ev)
+        g = ax * xv + az * zv + ae * ev - g_off
         if g == 0.0:
             break
         if (g > 0.0) == (g0 > 0.0):
             lo = u
         else:
             hi = u
-        r = _event_rate(kind, xd, zd, ed, bsl) * h
+        r = (ax * xd + az * zd + ae * ed) * h
         un = u - g / r if r != 0.0 else 0.5 * (lo + hi)
         if not (lo < un < hi):
             un = 0.5 * (lo + hi)
@@ -336,28 +418,27 @@ def _hermite_root(kind, h, x0, z0, e0, x1, z1, e1, k1x, k1z, k1e, f1x, f1z, f1e,
 @nb.njit(cache=True, inline="always", error_model="numpy")
 def _first_event(hstep, x, z, zeta, x1, z1, e1, k1x, k1z, k1e, f1x, f1z, f1e, bz0, bsl, bx0, x_ev):
     """The event a trial step of length ``hstep`` crosses first and the arc length to it (the step's
-    own length and _EV_NONE when it crosses none): surface, seabed, next range event, turning point."""
+    own length and _EV_NONE when it crosses none): surface, seabed, next range event, turning point.
+    The events as lines g = ax x + az z + ae zeta - g_off: z (surface), z - bz0 - bsl (x - bx0)
+    (seabed), x - x_ev (range), zeta (turning point), the values of :func:`_event_value`."""
     kind = _EV_NONE
     h = hstep
     if z1 < 0.0:
-        h = _hermite_root(_EV_SURFACE, hstep, x, z, zeta, x1, z1, e1, k1x, k1z, k1e, f1x, f1z, f1e, bz0, bsl,
-                          bx0, x_ev)
+        h = _hermite_root(hstep, x, z, zeta, x1, z1, e1, k1x, k1z, k1e, f1x, f1z, f1e, 0.0, 1.0, 0.0, 0.0)
         kind = _EV_SURFACE
     if z1 > bz0 + bsl * (x1 - bx0):
-        hp = _hermite_root(_EV_BOTTOM, hstep, x, z, zeta, x1, z1, e1, k1x, k1z, k1e, f1x, f1z, f1e, bz0, bsl,
-                           bx0, x_ev)
+        hp = _hermite_root(hstep, x, z, zeta, x1, z1, e1, k1x, k1z, k1e, f1x, f1z, f1e, -bsl, 1.0, 0.0,
+                           bz0 - bsl * bx0)
         if kind == _EV_NONE or hp < h:
             h = hp
             kind = _EV_BOTTOM
     if x1 >= x_ev:
-        hp = _hermite_root(_EV_RANGE, hstep, x, z, zeta, x1, z1, e1, k1x, k1z, k1e, f1x, f1z, f1e, bz0, bsl,
-                           bx0, x_ev)
+        hp = _hermite_root(hstep, x, z, zeta, x1, z1, e1, k1x, k1z, k1e, f1x, f1z, f1e, 1.0, 0.0, 0.0, x_ev)
         if kind == _EV_NONE or hp < h:
             h = hp
             kind = _EV_RANGE
     if zeta * e1 < 0.0:
-        hp = _hermite_root(_EV_TURN, hstep, x, z, zeta, x1, z1, e1, k1x, k1z, k1e, f1x, f1z, f1e, bz0, bsl,
-                           bx0, x_ev)
+        hp = _hermite_root(hstep, x, z, zeta, x1, z1, e1, k1x, k1z, k1e, f1x, f1z, f1e, 0.0, 0.0, 1.0, 0.0)
         if kind == _EV_NONE or hp < h:
             h = hp
             kind = _EV_TURN
@@ -366,12 +447,12 @@ def _first_event(hstep, x, z, zeta, x1, z1, e1, k1x, k1z, k1e, f1x, f1z, f1e, bz
 
 @nb.njit(cache=True, inline="always", error_model="numpy")
 def _land_on_event(kind, h, hstep, x, z, zeta, t, dx, dz, dzeta, dt, xi, dxi, k1x, k1z, k1e, k1t, k1a, k1b, k1c,
-                   k1d, knots, coef, piece, bz0, bsl, bx0, x_ev):
+                   k1d, knots, coef, piece, plo, phi, bz0, bsl, bx0, x_ev):
     """The RK4 step of length ``h`` (the interpolated event crossing), corrected by safeguarded
     Newton iterations on the step length inside [0, hstep] while it misses the event by more than
     the landing tolerance. Returns the state at the event and the step length."""
     x1, z1, e1, t1, a1, b1, c1, d1, _, _, _, _ = _rk4(x, z, zeta, t, dx, dz, dzeta, dt, xi, dxi, h, k1x, k1z, k1e,
-                                                      k1t, k1a, k1b, k1c, k1d, knots, coef, piece)
+                                                      k1t, k1a, k1b, k1c, k1d, knots, coef, piece, plo, phi)
     if kind == _EV_SURFACE:
         inside = 1.0
     elif kind == _EV_TURN:
@@ -389,14 +470,15 @@ def _land_on_event(kind, h, hstep, x, z, zeta, t, dx, dz, dzeta, dt, xi, dxi, k1
             lo = h
         else:
             hi = h
-        f2x, f2z, f2e, _, _, _, _, _, _, _, _ = _rhs(z1, e1, b1, c1, xi, dxi, knots, coef, piece)
+        f2x, f2z, f2e, _, _, _, _, _, _, _, _, _ = _rhs(z1, e1, b1, c1, xi, dxi, knots, coef, piece, plo, phi)
         r = _event_rate(kind, f2x, f2z, f2e, bsl)
         hn = h - g / r if r != 0.0 else 0.5 * (lo + hi)
         if not (lo < hn < hi):
             hn = 0.5 * (lo + hi)
         h = hn
         x1, z1, e1, t1, a1, b1, c1, d1, _, _, _, _ = _rk4(x, z, zeta, t, dx, dz, dzeta, dt, xi, dxi, h, k1x, k1z,
-                                                          k1e, k1t, k1a, k1b, k1c, k1d, knots, coef, piece)
+                                                          k1e, k1t, k1a, k1b, k1c, k1d, knots, coef, piece, plo,
+                                                          phi)
     return x1, z1, e1, t1, a1, b1, c1, d1, h
 
 
@@ -486,48 +568,68 @@ def _start_piece(z, zeta, knots, hint):
 
 
 @nb.njit(cache=True, inline="always", error_model="numpy")
-def _knot_step(z, k1z, b2, knots, piece, z_knot_max, hmax):
-    """Step that ends on the next knot of piece ``piece`` (quadratic prediction of z(h)), or ``hmax``.
+def _knot_step(z, k1z, b2, knots, plo, phi, z_knot_max, hmax):
+    """Step that ends on the next landing knot (a kink of the profile, see :func:`landing_pieces`)
+    above or below the run of pieces [plo, phi] (quadratic prediction of z(h)), or ``hmax``.
 
-    Returns (step, move): move is +-1 when the ray is within _KNOT_MIN_STEP_M of the knot it is
-    heading to, and so belongs to the next piece.
+    Returns (step, move, aim): move is +-1 when the ray is within _KNOT_MIN_STEP_M of the landing
+    knot it is heading to, and so belongs to the run of pieces past it; aim is +1 (-1) when the step
+    was cut to end on the knot below (above), 0 otherwise.
     """
     n_knots = knots.shape[0]
+    z_hi = knots[phi + 1] if phi + 2 < n_knots else 1e300
+    z_lo = knots[plo] if plo > 0 else -1e300
+    reach = abs(k1z) * hmax + abs(b2) * hmax * hmax  # bound on |z(h) - z| over the step
+    if z_hi - z > reach and z - z_lo > reach:
+        return hmax, 0, 0
     h_hi = -1.0
     h_lo = -1.0
-    reach = abs(k1z) * hmax + abs(b2) * hmax * hmax  # bound on |z(h) - z| over the step
-    if knots[piece + 1] - z > reach and (piece == 0 or z - knots[piece] > reach):
-        return hmax, 0
     # a knot the ray is a hair past (it came from there) is not ahead of it
-    if piece + 2 < n_knots and z < knots[piece + 1] < z_knot_max and (k1z > 0.0 or b2 > 0.0):
-        h_hi = _first_root(k1z, b2, z - knots[piece + 1], hmax)
-    if piece > 0 and 0.0 < knots[piece] < z and (k1z < 0.0 or b2 < 0.0):
-        h_lo = _first_root(k1z, b2, z - knots[piece], hmax)
+    # heading to a knot: one root in the stable form; a knot behind that the ray may curve back to
+    # (rare): the general search
+    if k1z > 0.0:
+        if z < z_hi < z_knot_max:
+            h_hi = _toward_root(k1z, b2, z_hi - z, hmax)
+        if 0.0 < z_lo < z and b2 < 0.0:
+            h_lo = _first_root(k1z, b2, z - z_lo, hmax)
+    else:
+        if 0.0 < z_lo < z:
+            h_lo = _toward_root(k1z, b2, z_lo - z, hmax)
+        if z < z_hi < z_knot_max and b2 > 0.0:
+            h_hi = _first_root(k1z, b2, z - z_hi, hmax)
     if h_hi > 0.0 and (h_lo <= 0.0 or h_hi <= h_lo):
         if h_hi > _KNOT_MIN_STEP_M:
-            return h_hi, 0
-        return hmax, 1
+            return h_hi, 0, 1
+        return hmax, 1, 0
     if h_lo > 0.0:
         if h_lo > _KNOT_MIN_STEP_M:
-            return h_lo, 0
-        return hmax, -1
-    return hmax, 0
+            return h_lo, 0, -1
+        return hmax, -1, 0
+    return hmax, 0, 0
 
 
 @nb.njit(cache=True, inline="always", error_model="numpy")
 def _snell_projection(zeta, xi, inv_c):
     """zeta put back on Snell's law, xi^2 + zeta^2 = 1 / c^2 (a projection method, [Hairer2006]
     sect. IV.4), given 1 / c: the integrator's drift off it moves turning depths, and so the phase
-    of every later cycle. Left alone near a turning point, where the projection is ill-conditioned."""
-    w = inv_c * inv_c - xi * xi
-    if w <= 0.0:
-        return zeta
-    zn = math.sqrt(w)
-    if zeta < 0.0:
-        zn = -zn
-    if abs(zn - zeta) < _PROJECT_MAX_REL * abs(zeta):
-        return zn
-    return zeta
+    of every later cycle.
+
+    One Newton step on zeta^2 = 1/c^2 - xi^2 (no square root): with the relative drift e = d /
+    zeta^2 held below 2 _PROJECT_MAX_REL its error is zeta e^2 / 8 (1e-20 relative for the usual
+    drift of 1e-10), and the next step's projection removes it. Larger drifts (near a turning point,
+    where the projection is ill-conditioned, or zeta = 0) are left alone.
+    """
+    return zeta + _snell_correction(zeta, xi, inv_c)
+
+
+@nb.njit(cache=True, inline="always", error_model="numpy")
+def _snell_correction(zeta, xi, inv_c):
+    """The change :func:`_snell_projection` makes to zeta (0 where it leaves zeta alone)."""
+    d = inv_c * inv_c - xi * xi - zeta * zeta
+    z2 = zeta * zeta
+    if abs(d) < (2.0 * _PROJECT_MAX_REL) * z2:
+        return d / (zeta + zeta)
+    return 0.0
 
 
 @nb.njit(cache=True, error_model="numpy")
@@ -612,7 +714,12 @@ def trace_ray(theta0, zs, med, r_max, max_steps, rec_r, rec, px, pz, pt, pa):
     # first stage carried over from the previous step's end point (valid for piece k1_piece)
     k1_piece = -1
     cs = czs = czzs = invs = 0.0
-    n_free = 0  # steps not counted in the budget (those cut short to end on a knot)
+    n_free = 0  # steps not counted in the budget (those cut short to end on a kink)
+    next_piece = -1
+    pend = 0.0  # Snell projection correction waiting for the next step (see below)
+    piece_lo = med.piece_lo
+    piece_hi = med.piece_hi
+    lands = piece_lo[piece_lo.shape[0] - 1] > 0  # the profile has kinks to land on
     while step - n_free < max_steps:
         step += 1
         bx0 = bed_r[seg]
@@ -624,9 +731,12 @@ def trace_ray(theta0, zs, med, r_max, max_steps, rec_r, rec, px, pz, pt, pa):
             x_ev = rec_r[jrec]
         if seg + 1 < n_seg and bed_r[seg + 1] < x_ev:
             x_ev = bed_r[seg + 1]
-        # The step stays inside one smooth cubic piece of the profile: it is shortened to end on the
-        # next knot (d2c/dz2 jumps there, which would cost RK4 its order).
-        piece = _start_piece(z, zeta, knots, hint)
+        # The step may cross knots where the profile is C1 (each stage evaluates its own piece) and
+        # stays inside the run of pieces [plo, phi] between kinks, shortened to end on the next kink.
+        # after a step that ended on a kink the piece is known: the one past it
+        piece = next_piece if next_piece >= 0 else _start_piece(z, zeta, knots, hint)
+        plo = piece_lo[piece]
+        phi = piece_hi[piece]
         # the first stage: c, c_z, c_zz carried over from the previous step's end point when the state
         # did not jump there and the piece is the same (fewer values live across steps than the whole
         # stage); a new piece is evaluated afresh (c_zz, and c_z of a C0 profile, jump at knots)
@@ -634,24 +744,29 @@ def trace_ray(theta0, zs, med, r_max, max_steps, rec_r, rec, px, pz, pt, pa):
             cs, czs, czzs = _eval_piece(z, knots, coef, piece)
             invs = 1.0 / cs
         k1x, k1z, k1e, k1t, k1a, k1b, k1c, k1d = _rates(cs, czs, czzs, invs, zeta, dz, dzeta, xi, dxi)
-        b2 = 0.5 * k1e * cs * cs * cs * xi * xi  # (d2z/ds2) / 2 = -c_z c xi^2 / 2
-        hstep, move = _knot_step(z, k1z, b2, knots, piece, z_knot_max, hctl)
-        if move != 0:
-            # on the knot it was heading to: the step lies in the next piece, up to its far knot
-            piece += move
-            cs, czs, czzs = _eval_piece(z, knots, coef, piece)
-            invs = 1.0 / cs
-            k1x, k1z, k1e, k1t, k1a, k1b, k1c, k1d = _rates(cs, czs, czzs, invs, zeta, dz, dzeta, xi, dxi)
-            b2 = 0.5 * k1e * cs * cs * cs * xi * xi
-            hstep, _ = _knot_step(z, k1z, b2, knots, piece, z_knot_max, hctl)
+        hstep = hctl
+        aim = 0
+        if lands:
+            b2 = 0.5 * k1e * cs * cs * cs * xi * xi  # (d2z/ds2) / 2 = -c_z c xi^2 / 2
+            hstep, move, aim = _knot_step(z, k1z, b2, knots, plo, phi, z_knot_max, hctl)
+            if move != 0:
+                # on the kink it was heading to: the step lies in the run past it, up to its far end
+                piece = phi + 1 if move > 0 else plo - 1
+                plo = piece_lo[piece]
+                phi = piece_hi[piece]
+                cs, czs, czzs = _eval_piece(z, knots, coef, piece)
+                invs = 1.0 / cs
+                k1x, k1z, k1e, k1t, k1a, k1b, k1c, k1d = _rates(cs, czs, czzs, invs, zeta, dz, dzeta, xi, dxi)
+                b2 = 0.5 * k1e * cs * cs * cs * xi * xi
+                hstep, _, aim = _knot_step(z, k1z, b2, knots, plo, phi, z_knot_max, hctl)
+            if hstep < hctl:
+                n_free += 1  # a step that ends on a kink always makes progress: the budget counts the others
         k1_piece = piece
-        if hstep < hctl:
-            n_free += 1  # a step that ends on a knot always makes progress: the budget counts the others
-        hint = piece
         x1, z1, e1, t1, a1, b1, c1, d1, k4x, k4z, k4e, k4t = _rk4(x, z, zeta, t, dx, dz, dzeta, dt, xi, dxi,
                                                                   hstep, k1x, k1z, k1e, k1t, k1a, k1b, k1c,
-                                                                  k1d, knots, coef, piece)
-        f1x, f1z, f1e, f1t, _, _, _, _, c1s, cz1s, czz1s = _rhs(z1, e1, b1, c1, xi, dxi, knots, coef, piece)
+                                                                  k1d, knots, coef, piece, plo, phi)
+        f1x, f1z, f1e, f1t, _, _, _, _, c1s, cz1s, czz1s, p1 = _rhs(z1, e1, b1, c1, xi, dxi, knots, coef, piece,
+                                                                    plo, phi)
         err = _error_ratio(hstep, k4x, k4z, k4e, k4t, f1x, f1z, f1e, f1t, cs, ds, tol)
         if err > 1.0 and hstep > _H_MIN_M:
             # rejected: retry from the same point with a shorter step (k1 stays valid)
@@ -665,11 +780,27 @@ def trace_ray(theta0, zs, med, r_max, max_steps, rec_r, rec, px, pz, pt, pa):
             # corrections on the step length if the interpolant missed by more than the tolerance
             x1, z1, e1, t1, a1, b1, c1, d1, h = _land_on_event(kind, h, hstep, x, z, zeta, t, dx, dz, dzeta, dt, xi,
                                                                dxi, k1x, k1z, k1e, k1t, k1a, k1b, k1c, k1d, knots,
-                                                               coef, piece, bz0, bsl, bx0, x_ev)
+                                                               coef, piece, plo, phi, bz0, bsl, bx0, x_ev)
             k1_piece = -1  # the state changes at the event: the next first stage is computed afresh
+            hint = piece
+            next_piece = -1
         else:
             # the end point's rates are the next step's first stage
             cs, czs, czzs, invs = c1s, cz1s, czz1s, f1t
+            k1_piece = p1
+            next_piece = -1
+            if aim != 0:
+                # the step ended on the kink it aimed at (to the quadratic prediction's accuracy): the
+                # next step lies in the piece past it, whose c_z and c_zz are taken there; 1/c by one
+                # Newton step from the old piece's (c is continuous, so this is exact to rounding)
+                kp = phi + 1 if aim > 0 else plo - 1
+                zk = knots[phi + 1] if aim > 0 else knots[plo]
+                if abs(z1 - zk) < _KNOT_HIT_M:
+                    cs, czs, czzs = _eval_piece(z1, knots, coef, kp)
+                    invs = f1t * (2.0 - cs * f1t)
+                    k1_piece = kp
+                    next_piece = kp
+            hint = k1_piece
         # absorption and path length per depth bin, at the step midpoint depth
         if n_ab > 0:
             ib = int(0.5 * (z + z1) * inv_ab_dz)
@@ -697,9 +828,18 @@ def trace_ray(theta0, zs, med, r_max, max_steps, rec_r, rec, px, pz, pt, pa):
         elif kind == _EV_TURN:
             zeta = 0.0
         if kind == _EV_NONE:
-            zeta = _snell_projection(zeta, xi, f1t)  # f1t = dt/ds = 1/c at the end point
-        elif kind != _EV_TURN:
-            c, _, _ = _eval_piece(z, knots, coef, piece)
+            # The projection, one step late: the correction computed at the previous step's end is
+            # applied now, and this step's is computed for the next (f1t = dt/ds = 1/c at the end
+            # point), so that the division is not on the path from one step to the next. The step
+            # from the unprojected state differs from the one from the projected state by h J d
+            # (J the Jacobian of the rates, d the correction ~1e-10 zeta), which the next projection
+            # removes: the state stays within one step's drift of Snell's law instead of drifting.
+            zeta += pend
+            pend = _snell_correction(zeta, xi, f1t)
+        else:
+            pend = 0.0  # events project at once (a reflection changes the slowness vector)
+        if kind != _EV_NONE and kind != _EV_TURN:
+            c, _, _ = _eval_piece(z, knots, coef, _piece_at(z, knots, piece, plo, phi))
             zeta = _snell_projection(zeta, xi, 1.0 / c)
         # caustic: q changes sign (orientation flips at reflections are bookkeeping)
         qn = orient * (xi * dz - zeta * dx)

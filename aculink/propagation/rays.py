@@ -5,10 +5,11 @@ of rays through :mod:`aculink.propagation._kernels` and labels the result. The p
 integration scheme are described in the kernel module; the choices made here are:
 
 * **Step.** RK4 with an error-controlled arc-length step of at most :data:`STEP_M` (5 m) and a
-  local tolerance of :data:`STEP_TOL_M`, shortened to land exactly on profile knots, boundaries,
-  turning points, seabed vertices and receiver ranges, with the ray angle projected back on Snell's
-  law after each step. In very shallow water the largest step is kept to a quarter of the
-  shallowest seabed depth.
+  local tolerance of :data:`STEP_TOL_M`, shortened to land exactly on boundaries, turning points,
+  seabed vertices, receiver ranges and the profile knots where its smoothness breaks (dc/dz or
+  d2c/dz2 jumps: every knot of a piecewise-linear or PCHIP profile; steps cross the knots of a C2
+  profile), with the ray angle projected back on Snell's law after each step. In very shallow
+  water the largest step is kept to a quarter of the shallowest seabed depth.
 * **Seabed reflection.** The complex Rayleigh coefficient
   (:func:`aculink.site.seabed.rayleigh_reflection`) is tabulated on :data:`BOTTOM_TABLE_SIZE`
   grazing angles with the critical angle on a node (so the kink there is not smeared) and linearly
@@ -86,9 +87,10 @@ class Medium:
 
     def kernel(self):
         """The :class:`aculink.propagation._kernels.KernelMedium` the kernels read."""
+        lo, hi = _k.landing_pieces(self.knots, self.coef)
         return _k.KernelMedium(self.knots, self.coef, self.bed_r, self.bed_z, self.bed_slope, self.bt_step,
                                self.bt_re, self.bt_im, self.ab_dz, self.ab_db, self.step_m, self.step_tol_m,
-                               self.floor_mag)
+                               self.floor_mag, lo, hi)
 
     def kernel_args(self):
         """Arguments of :func:`aculink.propagation._kernels.trace_ray` after ``theta0, zs``."""

@@ -225,3 +225,108 @@ def test_parallel_and_serial_fans_are_identical(make_site, munk):
     np.testing.assert_array_equal(rec_p, rec_s)
     np.testing.assert_array_equal(info_p, info_s)
     assert np.isfinite(rec_s[:, :, _k.R_T]).all()
+
+
+def _spline_pieces(z, c):
+    """A C2 natural cubic spline through (z, c) in the kernel's piece layout, and the spline."""
+    from scipy.interpolate import CubicSpline
+
+    spline = CubicSpline(z, c, bc_type="natural")
+    coef = np.ascontiguousarray(spline.c[::-1].T)  # scipy keeps the highest power first
+    return np.ascontiguousarray(z, dtype=float), coef, spline
+
+
+def test_landing_knots_are_where_smoothness_breaks():
+    """Runs of pieces a step may cross: split at every knot of a piecewise-linear (C0) or PCHIP (C1)
+    profile, none for a C2 cubic spline; a linear profile with one kink splits there only.
+
+    Source: definitions (a piecewise-linear interpolant has slope jumps at its knots, PCHIP is C1 with
+    jumps of the second derivative, a natural cubic spline is C2: de Boor, A Practical Guide to
+    Splines, 1978, ch. IV and V, from memory).
+    """
+    from layered_rays import linear_pieces
+
+    from aculink.site.profile import SoundSpeedProfile
+
+    z = np.array([0.0, 10.0, 20.0, 35.0, 60.0])
+    c = np.array([1512.0, 1511.0, 1503.0, 1496.0, 1495.0])
+    lo, hi = _k.landing_pieces(*linear_pieces(z, c))
+    np.testing.assert_array_equal(lo, [0, 1, 2, 3])
+    np.testing.assert_array_equal(hi, [0, 1, 2, 3])
+    prof = SoundSpeedProfile(z, c)
+    lo, hi = _k.landing_pieces(prof.knots, prof.coef)
+    np.testing.assert_array_equal(lo, np.arange(prof.knots.size - 1))
+    knots, coef, _ = _spline_pieces(z, c)
+    lo, hi = _k.landing_pieces(knots, coef)
+    np.testing.assert_array_equal(lo, [0, 0, 0, 0])
+    np.testing.assert_array_equal(hi, [3, 3, 3, 3])
+    # one kink at 20 m between two straight lines sampled at extra collinear knots
+    lo, hi = _k.landing_pieces(*linear_pieces(np.array([0.0, 10.0, 20.0, 40.0, 60.0]),
+                                              np.array([1500.0, 1501.0, 1502.0, 1501.0, 1500.0])))
+    np.testing.assert_array_equal(lo, [0, 0, 2, 2])
+    np.testing.assert_array_equal(hi, [1, 1, 3, 3])
+
+
+def test_steps_cross_the_knots_of_a_c2_profile(make_site):
+    """Depth, travel time and dz/dtheta0 at 3 km through a C2 spline profile whose knots steps cross.
+
+    Source: general-purpose reference, scipy.integrate.solve_ivp (DOP853, rtol 1e-12) on the ray
+    equations in range through the same spline (computed), 1e-4 m and 0.05 us; dz/dtheta0 against
+    the central finite difference of two traced rays (Cerveny 2001, sect. 4.2), 0.5%. 2 m knots: a
+    5 m step crosses up to three, each RK stage evaluating its own piece; landing on them instead
+    would take more steps, so the step count shows that they are crossed.
+    """
+    z = np.arange(0.0, 1000.0 + 1.0, 2.0)
+    c = 1490.0 + 0.017 * z + 12.0 * np.exp(-z / 150.0) + 1.5 * np.sin(z / 37.0)
+    knots, coef, spline = _spline_pieces(z, c)
+    import dataclasses
+
+    site = make_site(z, c, seabed_depth_m=(1000.0,), source_depth_m=250.0, receiver_range_m=3000.0)
+    medium = dataclasses.replace(prepare_medium(site, None), knots=knots, coef=coef)
+    dspline = spline.derivative()
+    h = 1e-6
+    for theta_deg in (-5.0, 3.0, 8.0):
+        th = np.radians(theta_deg)
+        rec, info, paths = run_fan(medium, np.array([th - h, th, th + h]), 250.0, np.array([3000.0]), 3000.0,
+                                   path_points=2000, parallel=False)
+        row = rec[1, 0]
+        assert row[_k.R_NS] == 0 and row[_k.R_NB] == 0
+        c0 = float(spline(250.0))
+        xi = np.cos(th) / c0
+
+        def rhs(x, y, xi=xi):
+            cz, dcz = float(spline(y[0])), float(dspline(y[0]))
+            return [y[1] / xi, -dcz / (cz * cz) / (cz * xi), 1.0 / (cz * cz * xi)]
+
+        sol = solve_ivp(rhs, (0.0, 3000.0), [250.0, np.sin(th) / c0, 0.0], method="DOP853", rtol=1e-12,
+                        atol=1e-12)
+        assert row[_k.R_Z] == pytest.approx(sol.y[0, -1], abs=1e-4)
+        assert row[_k.R_T] == pytest.approx(sol.y[2, -1], abs=5e-8)
+        fd = (rec[2, 0, _k.R_Z] - rec[0, 0, _k.R_Z]) / (2 * h)
+        assert _dz_dtheta(row) == pytest.approx(fd, rel=5e-3)
+        # knots crossed between path points (one per step): landing on each would add about one
+        # step per crossing to the path length over the largest step
+        zp = paths[1][1][np.isfinite(paths[1][1])]
+        crossed = np.abs(np.diff(np.floor(zp / 2.0))).sum()
+        steps = info[1, _k.I_STEPS]
+        assert crossed > 50
+        assert steps < 3000.0 / np.cos(th) / medium.step_m + 20
+
+
+def test_event_root_search_is_compiled_once():
+    """The Hermite root search serves every event kind with one compiled version.
+
+    Source: definition (its arguments are all floats: the events enter as the coefficients of a line
+    in (x, z, zeta), not as integer constants that numba would compile one version each for). A fresh
+    (uncached) caller of the event search is compiled here, so that numba types every call inside it.
+    """
+    import numba as nb
+
+    @nb.njit
+    def probe(hstep, x, z, zeta, x1, z1, e1):
+        return _k._first_event(hstep, x, z, zeta, x1, z1, e1, 1e-3, 1e-4, 1e-7, 1e-3, -1e-4, -1e-7, 60.0,
+                               0.0, 0.0, 100.0)
+
+    kind, h = probe(5.0, 95.0, 1.0, -1e-5, 100.5, -0.5, 1e-6)  # crosses surface, range and turning point
+    assert kind in (1, 3, 4) and 0.0 < h < 5.0
+    assert len(_k._hermite_root.signatures) == 1
