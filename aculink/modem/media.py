@@ -243,10 +243,15 @@ class ChannelMedium:
 
     def noise_acf(self, rs, beta, n_lags, sps=2):
         """``R[m] = int N(fc + f) |G(f)|^2 exp(j 2 pi f m T/sps) df`` (matched-filter output)."""
+        from aculink.channel.response import fourier_sum
+
         f, g2 = self._baseband(rs, beta)
         n = self.noise_psd(self.carrier_hz + f) * g2
-        lag = np.arange(n_lags)[:, None] / (sps * rs)
-        return np.trapezoid(n[None, :] * np.exp(2j * np.pi * f[None, :] * lag), f, axis=1)
+        # the trapezoid rule as weights, summed by rotation (one complex multiply per term)
+        w = np.zeros(f.size)
+        w[:-1] += np.diff(f) / 2.0
+        w[1:] += np.diff(f) / 2.0
+        return fourier_sum(n * w, f, np.arange(n_lags) / (sps * rs))
 
     def es_over_ref(self, rs):
         """Symbol energy ``P_tx T`` (the response is in pressure re 1 m per unit amplitude)."""
