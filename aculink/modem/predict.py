@@ -140,17 +140,21 @@ def _grid_size(span_symbols: int) -> int:
 
 
 def tracking_lag_s(plan, layout, rs) -> float:
-    """How old, on average, the channel knowledge a receiver decides with is, s.
+    """The equivalent age of the channel knowledge a receiver decides with, s.
 
-    Adaptive RLS: half its memory ``1 / (1 - lambda)`` symbols; NLMS: half of ``M / mu``
-    symbols; fixed-tap receivers (``none``, ``mmse-dfe``, set up on the preamble): the
-    training plus half the payload (common practice, no source).
+    Adaptive RLS: its memory ``M = 1 / (1 - lambda)`` symbols. An exponentially weighted estimate
+    ``sum_k (1 - lambda) lambda^k h(t - kT)`` of a gain with correlation ``rho(tau) ~ 1 - 2 pi^2
+    nu^2 tau^2`` misses ``E|h - h_est|^2 ~ 4 pi^2 nu^2 T^2 M^2`` of its power (the window's
+    ``2 sum w_k k^2 - sum sum w_k w_l (k - l)^2 = 2 M^2`` to first order; our derivation), which is
+    the error of a gain ``M T`` old, not ``M T / 2`` (the mean age alone undercounts it 4 times).
+    NLMS: the same with ``M = n / mu``. Fixed-tap receivers (``none``, ``mmse-dfe``, set up on the
+    preamble): the training plus half the payload (common practice, no source).
     """
     if plan.receiver in ("none", "mmse-dfe"):
         return (layout.n_train + 0.5 * layout.n_payload) / rs
     if plan.algorithm == "rls":
-        return 0.5 / (1.0 - plan.forgetting) / rs
-    return 0.5 * plan.n_adapted / plan.step / rs
+        return 1.0 / (1.0 - plan.forgetting) / rs
+    return plan.n_adapted / plan.step / rs
 
 
 def estimate_span(q_half, plan) -> tuple[int, int]:
