@@ -19,7 +19,7 @@ from numba import njit
 
 from aculink.errors import AculinkError
 from aculink.modem import _kernels
-from aculink.modem.analytic import (_CONDITION_FLOOR, _LOADING_LADDER, DfeDesign, _noise_matrix)
+from aculink.modem.analytic import _CONDITION_FLOOR, _LOADING_LADDER, DfeDesign, _noise_matrix, design_arguments
 
 
 def mmse_dfe_design_fast(q, n_ff: int, n_fb: int = 0, *, stride: int = 1, es: float = 1.0,
@@ -33,18 +33,7 @@ def mmse_dfe_design_fast(q, n_ff: int, n_fb: int = 0, *, stride: int = 1, es: fl
     ``[ceil((1 - t - Nf) / s), floor((Lq - 1 - t) / s)]``; the kept columns are those of that
     range that are not fed back (the reference column ``c_0`` among them).
     """
-    q = np.asarray(q, dtype=complex)
-    n_ff = int(n_ff)
-    if n_ff < 1:
-        raise AculinkError(f"feedforward taps = {n_ff}: must be >= 1")
-    if fb_delays is None:
-        if int(n_fb) < 0:
-            raise AculinkError(f"feedback taps = {n_fb}: must be >= 0")
-        fb = np.arange(1, int(n_fb) + 1)
-    else:
-        fb = np.unique(np.asarray(fb_delays, dtype=int))
-        if fb.size and fb[0] < 1:
-            raise AculinkError(f"feedback delay = {fb[0]}: must be >= 1 symbol")
+    q, n_ff, fb = design_arguments(q, n_ff, n_fb, fb_delays)
     stride = int(stride)
     lq = q.size
     peak = int(np.argmax(np.abs(q)))

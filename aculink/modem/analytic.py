@@ -35,8 +35,8 @@ import scipy.linalg
 from aculink.errors import AculinkError
 from aculink.modem import _kernels
 
-__all__ = ["folded_snr_from_taps", "EqualizerBounds", "water_filling", "equalizer_bounds", "DfeDesign",
-           "DIAGONAL_LOADING", "mmse_dfe_design", "single_tap_sinr", "rls_misadjustment",
+__all__ = ["design_arguments", "folded_snr_from_taps", "EqualizerBounds", "water_filling", "equalizer_bounds",
+           "DfeDesign", "DIAGONAL_LOADING", "mmse_dfe_design", "single_tap_sinr", "rls_misadjustment",
            "nlms_misadjustment", "error_propagation"]
 
 
@@ -175,6 +175,23 @@ _CONDITION_FLOOR = 1e-10
 _LOADING_LADDER = (DIAGONAL_LOADING, 1e-4, 1e-2)
 
 
+def design_arguments(q, n_ff, n_fb, fb_delays):
+    """Checked inputs of a finite-length MMSE-DFE design: ``(q, n_ff, feedback delays)``."""
+    q = np.asarray(q, dtype=complex)
+    n_ff = int(n_ff)
+    if n_ff < 1:
+        raise AculinkError(f"feedforward taps = {n_ff}: must be >= 1")
+    if fb_delays is None:
+        if int(n_fb) < 0:
+            raise AculinkError(f"feedback taps = {n_fb}: must be >= 0")
+        fb = np.arange(1, int(n_fb) + 1)
+    else:
+        fb = np.unique(np.asarray(fb_delays, dtype=int))
+        if fb.size and fb[0] < 1:
+            raise AculinkError(f"feedback delay = {fb[0]}: must be >= 1 symbol")
+    return q, n_ff, fb
+
+
 def mmse_dfe_design(q, n_ff: int, n_fb: int = 0, *, stride: int = 1, es: float = 1.0,
                     noise_acf=1.0, starts=None, fb_delays=None) -> DfeDesign:
     """Finite-length MMSE-DFE for a known sampled channel (Al-Dhahir and Cioffi 1995).
@@ -216,18 +233,7 @@ def mmse_dfe_design(q, n_ff: int, n_fb: int = 0, *, stride: int = 1, es: float =
     Al-Dhahir and Cioffi (1995), eqs. for the finite-length MMSE-DFE with correct past
     decisions; Voois, Lee and Cioffi, IEEE Trans. Inf. Theory 42(2), 618-621, 1996 (delay).
     """
-    q = np.asarray(q, dtype=complex)
-    n_ff = int(n_ff)
-    if n_ff < 1:
-        raise AculinkError(f"feedforward taps = {n_ff}: must be >= 1")
-    if fb_delays is None:
-        if int(n_fb) < 0:
-            raise AculinkError(f"feedback taps = {n_fb}: must be >= 0")
-        fb = np.arange(1, int(n_fb) + 1)
-    else:
-        fb = np.unique(np.asarray(fb_delays, dtype=int))
-        if fb.size and fb[0] < 1:
-            raise AculinkError(f"feedback delay = {fb[0]}: must be >= 1 symbol")
+    q, n_ff, fb = design_arguments(q, n_ff, n_fb, fb_delays)
     lq = q.size
     peak = int(np.argmax(np.abs(q)))
     if starts is None:

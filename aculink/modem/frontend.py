@@ -175,12 +175,7 @@ def _peak(c, lo: int, hi: int):
         return None, 0.0
     seg = np.abs(c[lo:hi]) ** 2
     k = int(np.argmax(seg)) + lo
-    frac = 0.0
-    if 0 < k < c.size - 1:
-        y0, y1, y2 = abs(c[k - 1]) ** 2, abs(c[k]) ** 2, abs(c[k + 1]) ** 2
-        den = y0 - 2 * y1 + y2
-        if den < 0:
-            frac = float(np.clip(0.5 * (y0 - y2) / den, -0.5, 0.5))
+    frac = _parabolic_offset(np.abs(c[k - 1:k + 2]) ** 2, 1) if 0 < k < c.size - 1 else 0.0
     return k + frac, c[k]
 
 
@@ -252,6 +247,16 @@ def estimate_channel(stream, start: int, training, n_pre: int, n_post: int, *, f
     return q, r2 / dof, *fit_quality(float(np.sum(np.abs(obs) ** 2)), r2, rows.size, length)
 
 
+def _parabolic_offset(y, k) -> float:
+    """Offset in [-1/2, 1/2] of the vertex of the parabola through ``y[k - 1], y[k], y[k + 1]``
+    from ``k`` (0 at an edge or where the three points do not curve down)."""
+    if not 0 < k < len(y) - 1:
+        return 0.0
+    y0, y1, y2 = y[k - 1], y[k], y[k + 1]
+    den = y0 - 2 * y1 + y2
+    return float(np.clip(0.5 * (y0 - y2) / den, -0.5, 0.5)) if den < 0 else 0.0
+
+
 def envelope_lag(env_head, env_tail, max_shift: int):
     """Lag of ``env_tail`` against ``env_head`` by cross-correlation of the envelopes.
 
@@ -266,12 +271,7 @@ def envelope_lag(env_head, env_tail, max_shift: int):
     t = np.asarray(env_tail, dtype=float)
     num = scipy.signal.correlate(t, h, mode="valid")
     k = int(np.argmax(num))
-    frac = 0.0
-    if 0 < k < num.size - 1:
-        y0, y1, y2 = num[k - 1], num[k], num[k + 1]
-        den = y0 - 2 * y1 + y2
-        if den < 0:
-            frac = float(np.clip(0.5 * (y0 - y2) / den, -0.5, 0.5))
+    frac = _parabolic_offset(num, k)
     seg = t[k:k + h.size]
     rho = num[k] / max(float(np.linalg.norm(h) * np.linalg.norm(seg)), 1e-300)
     return k - max_shift + frac, float(rho), bool(0 < k < num.size - 1)
@@ -368,12 +368,7 @@ def coarse_doppler(r, training, sps: int, hi: float, a_max: float, sample_rate_h
     best = int(np.argmax(power))
     if not power[best] >= COARSE_MIN_GAIN * power[k_max]:
         return 0.0, step
-    frac = 0.0
-    if 0 < best < grid.size - 1:
-        y0, y1, y2 = power[best - 1], power[best], power[best + 1]
-        den = y0 - 2 * y1 + y2
-        if den < 0:
-            frac = float(np.clip(0.5 * (y0 - y2) / den, -0.5, 0.5))
+    frac = _parabolic_offset(power, best)
     return float(np.clip(grid[best] + frac * step, -a_max, a_max)), step
 
 
