@@ -19,19 +19,13 @@ import numpy as np
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
 
+from bench_planning import rss_mb  # noqa: E402 (the resident-set reader, beside this script)
+
 from aculink.planning.availability import plan_availability  # noqa: E402
 from aculink.site.bundled import bundled_site_path  # noqa: E402
 from aculink.site.loader import load_site  # noqa: E402
 
 TARGET_S = 60.0
-
-
-def rss_mb() -> float:
-    with open("/proc/self/status") as fh:
-        for line in fh:
-            if line.startswith("VmRSS:"):
-                return int(line.split()[1]) / 1024.0
-    return float("nan")
 
 
 def main(argv=None) -> int:
