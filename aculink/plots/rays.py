@@ -211,7 +211,7 @@ def plot_rays(site, fan, path=None, *, shade="level", dynamic_range_db=DEFAULT_D
             ok = np.isfinite(ri)
             ax_s.plot(ri[ok], di[ok], color=EIGENRAY_COLOUR, lw=0.9, zorder=5, path_effects=halo)
         handles.append(Line2D([], [], color=EIGENRAY_COLOUR, lw=0.9, path_effects=halo,
-                              label=f"eigenrays to the receiver ({eigenrays.sizes['ray']})"))
+                              label=f"eigenrays within 20 dB of the strongest ({eigenrays.sizes['ray']})"))
     zs = float(fan.attrs["source_depth_m"])
     rx = site.receiver
     show_rx = rx.range_m <= end_m
@@ -229,8 +229,9 @@ def plot_rays(site, fan, path=None, *, shade="level", dynamic_range_db=DEFAULT_D
 
 
 def eigenray_paths(site, fan, dynamic_range_db=40.0):
-    """The eigenrays from the fan's source to the site's receiver, traced as paths to draw over the
-    fan (None when the receiver is beyond the fan or no eigenray reaches it)."""
+    """The eigenrays from the fan's source to the site's receiver within the channel report's
+    significance (20 dB) of the strongest, traced as paths to draw over the fan (None when the
+    receiver is beyond the fan or no eigenray reaches it)."""
     import numpy as np
 
     from aculink.propagation import find_arrivals, trace_rays
@@ -239,9 +240,14 @@ def eigenray_paths(site, fan, dynamic_range_db=40.0):
     rx = site.receiver
     if rx.range_m > float(fan.attrs["max_range_m"]):
         return None
+    from aculink.channel.stats import SIGNIFICANT_DB
+
     arr = find_arrivals(site, rx.range_m, rx.depth_m, source_depth_m=zs, dynamic_range_db=dynamic_range_db)
     angles = arr.launch_angle_deg.values.ravel()
-    angles = angles[np.isfinite(angles)]
-    if angles.size == 0:
+    power = np.sum(np.abs(arr.amplitude.values.reshape(angles.size, -1)) ** 2, axis=1)
+    ok = np.isfinite(angles) & (power > 0)
+    if not ok.any():
         return None
-    return trace_rays(site, source_depth_m=zs, angles_deg=angles, max_range_m=rx.range_m)
+    # the paths that matter: the eigenrays within the channel report's significance of the strongest
+    strong = ok & (power >= power[ok].max() * 10.0 ** (-SIGNIFICANT_DB / 10.0))
+    return trace_rays(site, source_depth_m=zs, angles_deg=angles[strong], max_range_m=rx.range_m)

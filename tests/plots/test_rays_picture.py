@@ -64,7 +64,13 @@ def test_eigenrays_drawn_on_top(shelf):
     eig = eigenray_paths(site, fan, 30.0)
     assert eig is not None and eig.sizes["ray"] >= 1
     fig = plot_rays(site, fan, eigenrays=eig)
-    assert f"eigenrays to the receiver ({eig.sizes['ray']})" in _legend_texts(fig)
+    assert f"eigenrays within 20 dB of the strongest ({eig.sizes['ray']})" in _legend_texts(fig)
+    # only the significant ones: no more than the arrivals within 20 dB of the strongest
+    from aculink.propagation import find_arrivals
+
+    arr = find_arrivals(site, site.receiver.range_m, site.receiver.depth_m, dynamic_range_db=30.0)
+    level = 10 * np.log10(np.sum(np.abs(arr.amplitude.values.reshape(arr.sizes["arrival"], -1)) ** 2, axis=1))
+    assert eig.sizes["ray"] == int(np.sum(level >= np.nanmax(level) - 20.0))
     # every eigenray ends at the receiver range
     np.testing.assert_allclose(np.nanmax(eig.range_m.values, axis=1), site.receiver.range_m, rtol=1e-9)
 
