@@ -29,6 +29,7 @@ RENAMED_KEYS = {
     "link": {"range_m": "receiver_range_m", "snr_in_db": "snr_band_db", "snr_out_db": "snr_out_measured_db",
              "snr_predicted_db": "snr_out_predicted_db"},
     "plan": {"snr_out_db": "snr_out_predicted_db"},
+    "sweep": {"snr_out_db": "snr_out_predicted_db", "candidate_snr_out_db": "candidate_snr_out_predicted_db"},
 }
 
 

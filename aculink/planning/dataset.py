@@ -29,7 +29,7 @@ VARIABLES = {
                               "(baud)", "s-1", {}, "point"),
     "snr_band_db": ("snr_band_db", "in-band signal-to-noise ratio from the sonar equation", "dB",
                     {"reference": "received signal power over noise power in the modem band"}, "point"),
-    "best_snr_out_db": ("snr_out_db", "predicted receiver output SNR of the workable configuration",
+    "best_snr_out_db": ("snr_out_predicted_db", "predicted receiver output SNR of the workable configuration",
                         "dB", {"reference": "symbol energy over residual noise-plus-ISI power"}, "point"),
     "best_ber_predicted": ("ber_predicted", "predicted bit error rate of the workable configuration",
                            "1", {}, "point"),
@@ -42,7 +42,7 @@ VARIABLES = {
     "error": ("error", "why this grid point has no result (empty when it has one)", None, {}, "point"),
     "rate_by_receiver_bps": ("net_bit_rate_by_receiver_bps", "highest workable net bit rate "
                              "with each receiver", "bit s-1", {}, "receiver"),
-    "snr_out_db": ("candidate_snr_out_db", "predicted receiver output SNR of each candidate", "dB",
+    "snr_out_db": ("candidate_snr_out_predicted_db", "predicted receiver output SNR of each candidate", "dB",
                    {"reference": "symbol energy over residual noise-plus-ISI power"}, "candidate"),
     "ber_predicted": ("candidate_ber_predicted", "predicted bit error rate of each candidate", "1",
                       {}, "candidate"),

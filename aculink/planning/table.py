@@ -199,7 +199,7 @@ def verify_plan(site, ds, *, seed=0, max_bits=None, simulate=None):
             verdicts[i], notes[i] = "error", f"Monte Carlo check failed: {search.one_line(exc)}"
             continue
         verdict, note = verify_verdict(run["bit_errors"], run["bits"], float(ds["ber_predicted"].values[i]),
-                                       float(ds["snr_out_db"].values[i]), config["modulation"], target,
+                                       float(ds["snr_out_predicted_db"].values[i]), config["modulation"], target,
                                        dispersion=run["dispersion"])
         lo, hi = pooled_interval(run["bit_errors"], run["bits"], run["dispersion"])
         values = {"ber_measured": run["bit_errors"] / run["bits"], "ber_measured_low": lo,
@@ -389,7 +389,7 @@ def plan_rows(ds) -> list:
         workable = not math.isnan(rate) and rate > 0
         for key, name in (("modulation", "best_modulation"), ("receiver", "best_receiver")):
             row[key] = str(get(name, i)) if workable else None
-        for key, name in (("symbol_rate_baud", "best_symbol_rate_baud"), ("snr_out_predicted_db", "snr_out_db"),
+        for key, name in (("symbol_rate_baud", "best_symbol_rate_baud"), ("snr_out_predicted_db", "snr_out_predicted_db"),
                           ("ber_predicted", "ber_predicted"), ("margin_db", "margin_db")):
             row[key] = _number(get(name, i)) if workable else None
         for key in ("snr_band_db", "spread_90_s", "tl_db"):

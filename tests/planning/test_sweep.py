@@ -44,7 +44,7 @@ def test_dataset_layout_units_and_attrs(flat_site, tmp_path):
     assert back["net_bit_rate_bps"].dims == ("source_depth", "range", "depth")
     assert back["candidate_ber_predicted"].dims == ("source_depth", "range", "depth", "receiver",
                                                     "symbol_rate", "modulation")
-    for name in ("net_bit_rate_bps", "snr_band_db", "snr_out_db", "ber_predicted", "margin_db",
+    for name in ("net_bit_rate_bps", "snr_band_db", "snr_out_predicted_db", "ber_predicted", "margin_db",
                  "spread_90_s", "tl_db", "best_symbol_rate_baud", "range", "depth", "source_depth"):
         assert back[name].attrs["units"] and back[name].attrs["long_name"], name
     assert back["range"].attrs["units"] == "m" and back["depth"].attrs["positive"] == "down"
@@ -62,7 +62,7 @@ def test_chunking_does_not_change_results(flat_site, tmp_path):
     whole = search.summarise_block(synthetic_eval.evaluate(flat_site, RANGES, DEPTHS, grid, 1e-4),
                                    grid, target_ber=1e-4, margin_db=3.0)
     np.testing.assert_array_equal(ds["net_bit_rate_bps"].values, whole["best_rate_bps"])
-    np.testing.assert_array_equal(ds["candidate_snr_out_db"].values, whole["snr_out_db"])
+    np.testing.assert_array_equal(ds["candidate_snr_out_predicted_db"].values, whole["snr_out_db"])
     np.testing.assert_array_equal(ds["best_receiver"].values, whole["best_receiver"])
 
 
