@@ -37,6 +37,9 @@ from aculink.channel import response as _resp
 from aculink.channel.variation import surface_gain_factors
 from aculink.errors import AculinkError, check_range
 
+__all__ = ["FARROW_TAPS", "FARROW_KAISER_BETA", "farrow_coefficients", "common_shape", "band_shape_residual",
+           "apply_channel", "prefilter", "control_block", "prefilter_convolve", "farrow_input", "gains_at"]
+
 #: Farrow fractional-delay design: taps, Kaiser window shape (about 1e-4 rms error for
 #: signals up to 0.35 of the sample rate, measured against exact band-limited tones).
 FARROW_TAPS = _kernels.FARROW_TAPS

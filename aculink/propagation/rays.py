@@ -41,6 +41,11 @@ import numpy as np
 from aculink.errors import AculinkError, check_range
 from aculink.propagation import _kernels as _k
 
+__all__ = ["STEP_M", "STEP_TOL_M", "BOTTOM_TABLE_SIZE", "ABSORPTION_BINS", "BOUNDARY_FLOOR_DB",
+           "MAX_LAUNCH_DEG", "DEFAULT_FAN_DEG", "TERMINATION_MEANINGS", "Medium", "bottom_reflection_table",
+           "absorption_table_db_per_m", "depth_bin_edges", "prepare_medium", "check_source_depth",
+           "check_angles", "check_max_range", "step_budget", "run_fan", "trace_rays"]
+
 #: Largest arc-length step of the RK4 integrator, m (the step controller may take shorter ones).
 STEP_M = 5.0
 #: Local error tolerance of one step (positions, c times the travel time, the maximum step times the
