@@ -328,12 +328,36 @@ def measure_doppler(r, c_head, k0: float, sync_tail, sps: int, nominal: int, win
     else:
         tail = np.abs(c_tail[lo_t:hi_t])
     lag, rho, inside = envelope_lag(head, tail, max_shift * up)
+    if rho < ENVELOPE_MIN_CORRELATION:
+        # the cluster changed over the frame (a fading surface path beside a steady one): follow
+        # the first significant arrival alone, which is the steadiest (direct or refracted path)
+        first = _first_arrival_window(head, sps * up)
+        if first is not None:
+            a0, a1 = first
+            lag1, rho1, inside1 = envelope_lag(head[a0:a1], tail[a0:a1 + 2 * max_shift * up], max_shift * up)
+            if rho1 >= ENVELOPE_MIN_CORRELATION:
+                lag, rho, inside = lag1, rho1, inside1
     lag /= up
     if rho < ENVELOPE_MIN_CORRELATION:
         return None, f"head and tail envelopes differ (correlation {rho:.2f})"
     if not inside:
         return None, "time scale at the bound of what the site can produce"
     return nominal / (nominal + lag) - 1.0, ""
+
+
+def _first_arrival_window(env, half_width: int):
+    """Sample span ``(start, stop)`` of the first arrival in an envelope: around the first sample
+    within 6 dB (in amplitude, half) of the largest, ``half_width`` samples each side (a pulse's
+    main lobe); None when that is not a shorter span than the whole envelope."""
+    env = np.asarray(env, dtype=float)
+    if env.size == 0 or not np.isfinite(env).all() or env.max() <= 0:
+        return None
+    i = int(np.argmax(env >= 0.5 * env.max()))
+    # climb to the local peak of that arrival
+    while i + 1 < env.size and env[i + 1] > env[i]:
+        i += 1
+    a0, a1 = max(0, i - half_width), min(env.size, i + half_width + 1)
+    return (a0, a1) if (a1 - a0 >= 3 and a1 - a0 < env.size) else None
 
 
 def coarse_doppler(r, training, sps: int, hi: float, a_max: float, sample_rate_hz: float,
