@@ -82,6 +82,17 @@ def _boundary_bracket(own, other, j, zr, z, zeta, ns, nb_, nc, bed_z):
 
 
 @nb.njit(cache=True, inline="always", error_model="numpy")
+def _add_bracket(wb, tn, w_br, t_br, br_best, br_lo, br_own, br_edge, lo, edge):
+    """A bracket joins its run's weighted delay; the heaviest so far becomes the run's own (its
+    lower ray ``lo``, which the run also takes as its label, and ``edge``, -1 for an inner one)."""
+    w_br += wb
+    t_br += wb * tn
+    if wb > br_best:
+        br_best, br_lo, br_own, br_edge = wb, lo, lo, edge
+    return w_br, t_br, br_best, br_lo, br_own, br_edge
+
+
+@nb.njit(cache=True, inline="always", error_model="numpy")
 def _bracket_weight(near, j, zr, t, zeta, kappa, wz, amp, fac_re, fac_im, z):
     """(weight, delay) of a bracket from its nearer ray: the ray's beam power at the receiver, and its
     travel time moved to the receiver depth to second order."""
@@ -140,13 +151,8 @@ def _scan(j, k, z, t, zeta, kappa, wz, amp, fac_re, fac_im, ns, nb_, nc, bed_z, 
             n_br += 1
             if fill:
                 wb, tn = _bracket_weight(i - 1, j, zr, t, zeta, kappa, wz, amp, fac_re, fac_im, z)
-                w_br += wb
-                t_br += wb * tn
-                if wb > br_best:
-                    br_best = wb
-                    br_lo = i - 1
-                    br_own = i - 1
-                    br_edge = i - 1
+                w_br, t_br, br_best, br_lo, br_own, br_edge = _add_bracket(
+                    wb, tn, w_br, t_br, br_best, br_lo, br_own, br_edge, i - 1, i - 1)
         if in_run and (not member or not member_run):
             # close the run: one arrival
             if fill:
@@ -243,13 +249,8 @@ def _scan(j, k, z, t, zeta, kappa, wz, amp, fac_re, fac_im, ns, nb_, nc, bed_z, 
             n_br += 1
             near = i if abs(d) <= abs(zr - z[i - 1, j]) else i - 1
             wb, tn = _bracket_weight(near, j, zr, t, zeta, kappa, wz, amp, fac_re, fac_im, z)
-            w_br += wb
-            t_br += wb * tn
-            if wb > br_best:
-                br_best = wb
-                br_lo = i - 1
-                br_own = i - 1
-                br_edge = -1
+            w_br, t_br, br_best, br_lo, br_own, br_edge = _add_bracket(
+                wb, tn, w_br, t_br, br_best, br_lo, br_own, br_edge, i - 1, -1)
     return count
 
 
