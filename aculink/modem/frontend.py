@@ -453,17 +453,22 @@ def synchronise(y, *, rolloff, sps, sync_head, sync_tail, training, n_frame_symb
         # two passes: after the first compensation head and tail sit at the same fractional
         # sample offset, so the bias of the parabolic refinement cancels in the second estimate
         y0 = y
+
+        def compensated(a):
+            # the frame resampled by the time scale a, filtered, and its preamble peak again
+            y_a = time_scale(y0, a, sample_rate_hz, carrier_hz, inverse=True)
+            r_a = matched_filter(y_a, rolloff, sps)
+            c_a = correlate_sequence(r_a, sync_head, sps)
+            k_a, _ = _peak(c_a, 0, hi_head)
+            return y_a, r_a, c_a, 0.0 if k_a is None else k_a
+
         # a platform's carrier shift can rotate the preamble by a cycle or more and wipe out
         # the peaks the fine estimate reads: acquire it coarsely first (the significance test
         # of the coarse step is its own, the fine one then refines from there)
         a0, a_res = coarse_doppler(r, training, sps, hi_head, a_max, sample_rate_hz, carrier_hz)
         if a0:
             doppler = a0
-            y = time_scale(y0, a0, sample_rate_hz, carrier_hz, inverse=True)
-            r = matched_filter(y, rolloff, sps)
-            c = correlate_sequence(r, sync_head, sps)
-            k0, _ = _peak(c, 0, hi_head)
-            k0 = 0.0 if k0 is None else k0
+            y, r, c, k0 = compensated(a0)
             floor = DOPPLER_SIGNIFICANCE * doppler_floor(rolloff, len(sync_head),
                                                          _preamble_snr(r, k0, sync_head, sps), n_frame_symbols)
         for _ in range(3 if a0 else 2):
@@ -486,11 +491,7 @@ def synchronise(y, *, rolloff, sps, sync_head, sync_tail, training, n_frame_symb
                 # arrivals (the surface moved them), keep the coarse scale
                 break
             doppler = a
-            y = time_scale(y0, a, sample_rate_hz, carrier_hz, inverse=True)
-            r = matched_filter(y, rolloff, sps)
-            c = correlate_sequence(r, sync_head, sps)
-            k0, _ = _peak(c, 0, hi_head)
-            k0 = 0.0 if k0 is None else k0
+            y, r, c, k0 = compensated(a)
     # detection, and resynchronisation on the next candidate peaks when the training is not
     # where the strongest peak says
     best = None
