@@ -57,7 +57,8 @@ import numpy as np
 from scipy import special
 
 from aculink.channel.variation import scattered_doppler_spread_hz, surface_phase_std
-from aculink.site.surface import arriving_scattered_fraction, kept_fraction, mean_square_slope
+from aculink.site.surface import (arriving_scattered_fraction, kept_fraction, mean_square_slope,
+                                  path_kept_fraction, rayleigh_parameter_squared)
 
 #: Sub-paths per surface path.
 SUBPATHS = 4
@@ -175,9 +176,8 @@ def add_surface_scatter(channel, *, n_sub=SUBPATHS, sound_speed_mps=None, keep_g
     if (channel.is_empty or motion is None or not motion.active or np.any(channel.scattered)):
         return channel
     c_top = float(motion.sound_speed_mps)
-    k = 2.0 * np.pi * channel.freq_hz / c_top                     # (F,)
     sin2 = channel.surface_grazing_sin2_sum
-    gamma2_f = 4.0 * (k[None, :] * motion.rms_height_m) ** 2 * sin2[:, None]   # (P, F)
+    gamma2_f = rayleigh_parameter_squared(sin2, channel.freq_hz, motion.rms_height_m, c_top)   # (P, F)
     frac = scattered_fraction(gamma2_f)
     parents = np.flatnonzero((sin2 > 0) & (np.max(frac, axis=1) >= MIN_SCATTERED_FRACTION))
     if parents.size == 0:
@@ -189,7 +189,7 @@ def add_surface_scatter(channel, *, n_sub=SUBPATHS, sound_speed_mps=None, keep_g
     incident = np.where(np.isfinite(incident), incident, 0.0)
     mss = float(mean_square_slope(motion.wind_speed_mps))
     n_b = np.maximum(channel.surface_bounces[parents], 1)
-    kept = kept_fraction(sin2[parents] / n_b, mss, keep_grazing_rad)
+    kept = path_kept_fraction(sin2[parents], n_b, motion.wind_speed_mps, keep_grazing_rad)
     arriving = frac[parents] if keep_grazing_rad is None else arriving_scattered_fraction(
         gamma2_f[parents], n_b, kept)
     amp = np.sqrt(arriving / n_sub) * incident                     # (Q, F) per sub-path

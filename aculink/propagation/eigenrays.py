@@ -193,19 +193,17 @@ def _arriving_factor(site, sin2, n_surface, freq_hz, c_surface, keep):
     scattered together (the channel stage's surface model, :func:`aculink.site.surface.
     surviving_energy_fraction`) with energy scattered steeper than ``keep`` (rad; None: no limit)
     lost: 1 for a path without surface bounces or on a calm sea, shape (..., F)."""
-    from aculink.site.surface import kept_fraction, mean_square_slope, surviving_energy_fraction
+    from aculink.site.surface import path_kept_fraction, rayleigh_parameter_squared, surviving_energy_fraction
 
-    sin2 = np.asarray(sin2, dtype=float)
+    sin2 = np.nan_to_num(np.asarray(sin2, dtype=float))
     n = np.asarray(n_surface)
     f = np.asarray(freq_hz, dtype=float)
     sigma = site.surface.rms_height_m
     if sigma <= 0 or keep is None:
         return np.ones(sin2.shape + (f.size,))
-    k = 2.0 * np.pi * f / c_surface
-    gamma2 = 4.0 * (k * sigma) ** 2 * np.nan_to_num(sin2)[..., None]
-    n_b = np.maximum(n, 1)
-    kept = kept_fraction(np.nan_to_num(sin2) / n_b, float(mean_square_slope(site.surface.wind_speed_mps)), keep)
-    factor = np.sqrt(surviving_energy_fraction(gamma2, n_b, kept))
+    gamma2 = rayleigh_parameter_squared(sin2, f, sigma, c_surface)
+    kept = path_kept_fraction(sin2, n, site.surface.wind_speed_mps, keep)
+    factor = np.sqrt(surviving_energy_fraction(gamma2, np.maximum(n, 1), kept))
     return np.where((n > 0)[..., None], factor, 1.0)
 
 

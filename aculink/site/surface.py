@@ -34,6 +34,8 @@ __all__ = [
     "kept_fraction",
     "arriving_scattered_fraction",
     "surviving_energy_fraction",
+    "rayleigh_parameter_squared",
+    "path_kept_fraction",
     "scatter_keep_angle_rad",
 ]
 
@@ -358,3 +360,19 @@ def scatter_keep_angle_rad(site):
     c_w = float(site.water.profile.speed(np.array([site.seabed.max_depth_m]))[0])
     theta = float(critical_grazing_angle_rad(c_w, float(site.seabed.sound_speed_mps)))
     return None if not np.isfinite(theta) else theta
+
+
+def rayleigh_parameter_squared(sin2_sum, freq_hz, rms_height_m, sound_speed_mps):
+    """``Gamma^2 = 4 k^2 sigma^2 S`` of a path, with ``S`` the sum of sin^2 of its surface grazing
+    angles and ``k = 2 pi f / c`` [Eckart1953]: shape ``sin2_sum.shape + (F,)``. Its coherent
+    intensity is ``exp(-Gamma^2)`` of the incident (:func:`surface_coherent_reflection` per bounce)."""
+    k = 2.0 * np.pi * np.atleast_1d(np.asarray(freq_hz, dtype=float)) / sound_speed_mps
+    return 4.0 * (k * rms_height_m) ** 2 * np.asarray(sin2_sum, dtype=float)[..., None]
+
+
+def path_kept_fraction(sin2_sum, n_bounces, wind_speed_mps, keep_grazing_rad):
+    """:func:`kept_fraction` of a path at its mean bounce (``sin^2 = S / n``, equal grazing angles)
+    with the Cox-Munk slope of the wind."""
+    n = np.maximum(np.asarray(n_bounces), 1)
+    return kept_fraction(np.asarray(sin2_sum, dtype=float) / n, float(mean_square_slope(wind_speed_mps)),
+                         keep_grazing_rad)
