@@ -243,7 +243,8 @@ def step_plan(site, out, args, done):
 
 def step_availability(site, out, args, done):
     from aculink.io.atomic import write_text_atomic
-    from aculink.io.tables import format_table, write_csv
+    from aculink.io.reports import availability_csv_keys, format_availability
+    from aculink.io.tables import write_csv
     from aculink.planning import availability as av
     from aculink.plots.availability import plot_availability
 
@@ -253,11 +254,8 @@ def step_availability(site, out, args, done):
     ds = av.plan_availability(site, geo.availability_ranges_m, depth_m=geo.plan_depth_m, probability=0.9,
                               members=geo.members, attribution=geo.attribution)
     rows = av.availability_rows(ds)
-    text = "\n".join([av.availability_heading(ds),
-                      format_table(av.availability_columns(ds), [av.availability_display(r) for r in rows]),
-                      av.availability_reading(ds, rows)])
-    write_text_atomic(out / "availability.txt", text + "\n")
-    write_csv(out / "availability.csv", av.AVAILABILITY_KEYS + tuple(k for k in rows[0] if k.startswith("rate_at_")), rows)
+    write_text_atomic(out / "availability.txt", format_availability(ds, rows) + "\n")
+    write_csv(out / "availability.csv", availability_csv_keys(rows), rows)
     plot_availability(ds, site, out / "availability.png")
     return [("Availability table", f"The rate one modem setting sustains 50 %, 90 % and 99 % of the time over the "
              f"site's declared variability ({int(ds.attrs['members'])} members here; `plan --availability` "

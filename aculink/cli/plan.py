@@ -131,9 +131,9 @@ RATE_MARKS = _reports.RATE_MARKS
 def run_availability(args, site, ranges, receivers) -> int:
     """``plan --availability P``: the ensemble table (see :mod:`aculink.planning.availability`)."""
     from aculink.errors import AculinkError
-    from aculink.io.tables import format_table, write_csv
-    from aculink.planning import availability as av
     from aculink.cautions import CAUTION_LINE
+    from aculink.io.tables import write_csv
+    from aculink.planning import availability as av
 
     if args.verify:
         raise AculinkError("--verify and --availability: choose one (verify the nominal plan without "
@@ -144,9 +144,8 @@ def run_availability(args, site, ranges, receivers) -> int:
                               workers=0 if args.workers is None and args.scheduler is None else args.workers,
                               scheduler=args.scheduler)
     rows = av.availability_rows(ds)
-    keys = av.AVAILABILITY_KEYS + tuple(k for k in rows[0] if k.startswith("rate_at_"))
     if args.csv:
-        write_csv(args.csv, keys, rows, overwrite=args.overwrite)
+        write_csv(args.csv, _reports.availability_csv_keys(rows), rows, overwrite=args.overwrite)
     if args.plot:
         from aculink.plots.availability import plot_availability
 
@@ -160,9 +159,7 @@ def run_availability(args, site, ranges, receivers) -> int:
                     "variability": None if site.variability is None else site.variability.to_dict(),
                     "caution": CAUTION_LINE, "rows": rows})
         return 0
-    print(av.availability_heading(ds))
-    print(format_table(av.availability_columns(ds), [av.availability_display(r) for r in rows]))
-    print(av.availability_reading(ds, rows))
+    print(_reports.format_availability(ds, rows))
     print(CAUTION_LINE)
     for line in _reports.written_lines([args.csv, args.plot]):
         print(line)

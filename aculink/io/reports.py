@@ -414,6 +414,23 @@ def format_plan(site, ds, rows, *, verify: bool = False) -> str:
     return "\n".join(lines)
 
 
+def format_availability(ds, rows) -> str:
+    """The availability report (``plan --availability``, the demo): heading, table, reading line."""
+    from aculink.io.tables import format_table
+    from aculink.planning import availability as av
+
+    return "\n".join([av.availability_heading(ds),
+                      format_table(av.availability_columns(ds), [av.availability_display(r) for r in rows]),
+                      av.availability_reading(ds, rows)])
+
+
+def availability_csv_keys(rows) -> tuple:
+    """CSV columns of the availability rows: the fixed keys, then every ``rate_at_*`` they carry."""
+    from aculink.planning.availability import AVAILABILITY_KEYS
+
+    return AVAILABILITY_KEYS + tuple(k for k in rows[0] if k.startswith("rate_at_"))
+
+
 def plan_document(site, ds, rows, *, verify: bool = False) -> dict:
     """The JSON object of ``aculink plan``: settings, rows, and what the picture needs to be redrawn
     (each receiver's best rate per row and the fielded-system envelope)."""
@@ -485,4 +502,4 @@ __all__ = ["RENAMED_KEYS", "CAUTION", "CAUTION_LINE", "written_lines", "geometry
            "format_rays", "ARRIVALS_CSV_KEYS", "arrivals_table", "format_arrivals", "loss_summary", "format_loss",
            "channel_report", "format_channel", "link_report", "sent_text", "format_link", "plan_heading",
            "plan_columns", "RATE_MARKS", "plan_display_row", "verify_summary", "format_plan", "plan_document",
-           "demo_conclusion", "no_equalizer_reach"]
+           "demo_conclusion", "no_equalizer_reach", "format_availability", "availability_csv_keys"]

@@ -314,3 +314,26 @@ def test_bad_workers_are_refused_before_any_member_runs():
         plan_availability(site, [5000.0], members=8, workers=-1, evaluate=counting,
                           modulations=["bpsk"], receivers=["dfe"])
     assert not calls
+
+
+def test_cli_availability_table_csv_and_json(tmp_path, capsys):
+    """`plan --availability` on a bundled site: the table with its reading line and caution, the
+    CSV with the rate-at-p columns, and one JSON object with the same rows (contract)."""
+    import csv
+    import json
+
+    from aculink.cli import main
+    from aculink.site.bundled import bundled_site_path
+
+    site = str(bundled_site_path("shelf_winter"))
+    args = ["plan", site, "--availability", "0.9", "--members", "2", "--ranges-m", "1000,2000"]
+    out_csv = tmp_path / "a.csv"
+    assert main(args + ["--csv", str(out_csv)]) == 0
+    text = capsys.readouterr().out
+    assert "link availability" in text and "Reading:" in text and "Caution:" in text
+    with open(out_csv, newline="") as fh:
+        header = next(csv.reader(fh))
+    assert header[0] == "range_m" and {"rate_at_50_bps", "rate_at_90_bps", "rate_at_99_bps"} <= set(header)
+    assert main(args + ["--json"]) == 0
+    doc = json.loads(capsys.readouterr().out)
+    assert [r["range_m"] for r in doc["rows"]] == [1000.0, 2000.0] and doc["members"] == 2
